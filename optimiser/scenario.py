@@ -1,0 +1,296 @@
+"""The boat, the space and the workshop practice a design must fit: one flat TOML file.
+
+Keys carry their unit (``shaft_diameter_mm``, ``bilge_air_C``); ``load_scenario`` converts to SI.
+Every key has a default with a reason (``FIELDS``); a missing key takes its default. The loader is
+strict: unknown keys (with a did-you-mean), wrong types and out-of-range values are all reported at
+once as an ``InputError``. The built-in demo is the fictional 10 m sloop "Kittiwake".
+"""
+from __future__ import annotations
+
+import re
+import tomllib
+from dataclasses import dataclass, fields as dc_fields
+from importlib import resources
+from pathlib import Path
+
+from .errors import InputError, Problem, did_you_mean
+
+__all__ = ["Scenario", "load_scenario", "write_template", "render_template", "FIELDS",
+           "DEMO_SCENARIO"]
+
+
+@dataclass(frozen=True)
+class Field:
+    key: str            # TOML key (unit in the name)
+    kind: type          # str, float or int
+    default: object     # in the key's unit
+    lo: float | None
+    hi: float | None
+    reason: str         # why this default; written as a comment in the template
+    group: str
+    lo_open: bool = False   # lo itself not allowed
+    scale: float = 1.0      # key unit -> SI
+
+    @property
+    def attr(self) -> str:
+        return self.key[:-3] + "_m" if self.key.endswith("_mm") else self.key
+
+
+_MM = 1e-3
+FIELDS: tuple[Field, ...] = (
+    Field("name", str, "Kittiwake", None, None, "label printed on the build sheet; demo boat: "
+          "fictional 10 m sloop", "boat"),
+    Field("currency", str, "EUR", None, None, "currency of the catalog prices", "boat"),
+    Field("battery_nominal_V", float, 12.0, 6, 60, "12 V house bank (lead-acid/AGM)", "battery"),
+    Field("battery_charging_V", float, 14.0, 6, 80, "lead-acid/AGM absorption voltage, about "
+          "2.33 V per cell; designs are rated at this voltage", "battery"),
+    Field("battery_resistance_ohm", float, 0.03, 0, 1, "battery internal plus round-trip cable "
+          "resistance of a 12 V bank with a few metres of cable (estimate; measure yours)",
+          "battery"),
+    Field("diode_forward_drop_V", float, 0.8, 0, 2, "silicon bridge rectifier diode at a few "
+          "amperes (Schottky about 0.5 V)", "battery"),
+    Field("sailing_rpm", float, 180.0, 10, 3000, "free-wheeling shaft at about 6 knots (common "
+          "practice: roughly 150-250 rpm at 5-7 knots)", "shaft"),
+    Field("max_rpm", float, 1500.0, 10, 6000, "highest shaft speed under engine: sets the open-"
+          "circuit voltage and the strength checks", "shaft"),
+    Field("shaft_diameter_mm", float, 25.0, 5, 200, "propeller shaft of a 10 m yacht", "shaft",
+          scale=_MM),
+    Field("bearing_drag_Nm", float, 0.25, 0, 20, "drag torque of the generator's own bearings and "
+          "seal (estimate; measure yours)", "shaft"),
+    Field("bilge_air_C", float, 35.0, -20, 80, "warm bilge next to the engine in summer",
+          "space"),
+    Field("max_rotor_diameter_mm", float, 320.0, 50, 1500, "room around the shaft inside the "
+          "hull, minus a hand's width for the guard", "space", scale=_MM),
+    Field("max_axial_length_mm", float, 110.0, 10, 1000, "free shaft length between coupling and "
+          "stern gland, minus room for the guard", "space", scale=_MM),
+    Field("hub_clearance_mm", float, 20.0, 0, 200, "radial ring around the shaft kept free of "
+          "magnets for hub, key and bolts", "space", scale=_MM),
+    Field("running_clearance_mm", float, 1.5, 0.2, 20, "gap each side between magnet faces and "
+          "stator: disc run-out plus shaft movement", "space", scale=_MM),
+    Field("coil_hole_clearance_mm", float, 1.0, 0, 20, "coil hole larger than the magnet on each "
+          "side: winding former tolerance", "coils", scale=_MM),
+    Field("min_coil_leg_mm", float, 4.0, 0.5, 100, "narrower coil legs are hard to wind and to "
+          "cast", "coils", scale=_MM),
+    Field("coil_fill_factor", float, 0.80, 0, 1, "N x strands x d_ins^2 over the winding window "
+          "(square packing) reached by careful hand winding (common practice)", "coils",
+          lo_open=True),
+    Field("resin_skin_mm", float, 0.8, 0, 10, "resin over each coil face, holds and protects the "
+          "wire", "coils", scale=_MM),
+    Field("resin_conductivity_W_mK", float, 0.25, 0.05, 5, "unfilled casting resin about 0.2, "
+          "filled resins up to about 1 (from memory)", "coils"),
+    Field("temperature_margin_K", float, 20.0, 0, 100, "kept below the wire's thermal class and "
+          "the magnets' maximum temperature", "limits"),
+    Field("back_iron_saturation_T", float, 1.6, 0.5, 2.2, "mild steel is well into saturation "
+          "above about 1.6 T (common practice)", "limits"),
+    Field("turns_min", int, 10, 1, 5000, "fewest turns per coil the search tries", "search"),
+    Field("turns_max", int, 400, 1, 5000, "most turns per coil the search tries; more is a long "
+          "evening per coil", "search"),
+    Field("strands_min", int, 1, 1, 50, "fewest wires in hand", "search"),
+    Field("strands_max", int, 8, 1, 50, "most wires in hand; more than 8 is hard to wind neatly",
+          "search"),
+    Field("ring_radius_min_mm", float, 60.0, 5, 750, "smallest mean radius of the magnet ring",
+          "search", scale=_MM),
+    Field("ring_radius_max_mm", float, 150.0, 5, 750, "largest mean radius of the magnet ring",
+          "search", scale=_MM),
+    Field("ring_radius_step_mm", float, 2.5, 0, 100, "ring radius grid: as close as marking out "
+          "by hand with a template holds", "search", lo_open=True, scale=_MM),
+    Field("wire_margin", float, 0.10, 0, 1, "extra wire bought over the computed length for "
+          "leads, terminations and waste (fraction)", "search"),
+)
+_BY_KEY = {f.key: f for f in FIELDS}
+_GROUP_TITLES = {"boat": "Boat", "battery": "Battery bank and rectifier", "shaft": "Shaft",
+                 "space": "Space and clearances", "coils": "Coils and casting",
+                 "limits": "Limits", "search": "What the search may choose"}
+
+
+@dataclass(frozen=True)
+class Scenario:
+    """All scenario values in SI (or the unit named in the attribute)."""
+
+    name: str
+    currency: str
+    battery_nominal_V: float
+    battery_charging_V: float
+    battery_resistance_ohm: float
+    diode_forward_drop_V: float
+    sailing_rpm: float
+    max_rpm: float
+    shaft_diameter_m: float
+    bearing_drag_Nm: float
+    bilge_air_C: float
+    max_rotor_diameter_m: float
+    max_axial_length_m: float
+    hub_clearance_m: float
+    running_clearance_m: float
+    coil_hole_clearance_m: float
+    min_coil_leg_m: float
+    coil_fill_factor: float
+    resin_skin_m: float
+    resin_conductivity_W_mK: float
+    temperature_margin_K: float
+    back_iron_saturation_T: float
+    turns_min: int
+    turns_max: int
+    strands_min: int
+    strands_max: int
+    ring_radius_min_m: float
+    ring_radius_max_m: float
+    ring_radius_step_m: float
+    wire_margin: float
+    source: str = "built-in demo"   # file it came from, for run records
+
+    def as_dict(self) -> dict:
+        return {f.name: getattr(self, f.name) for f in dc_fields(self)}
+
+
+DEMO_SCENARIO = "demo_scenario.toml"
+
+
+def load_scenario(path=None) -> Scenario:
+    """Read a scenario TOML file; ``None`` gives the built-in demo (Kittiwake)."""
+    if path is None:
+        text = resources.files("optimiser.data").joinpath(DEMO_SCENARIO).read_text("utf-8")
+        return _parse(text, "built-in demo scenario", "built-in demo")
+    path = Path(path)
+    if not path.is_file():
+        raise InputError([Problem(str(path), None, None, "file not found; `afpm scenario new "
+                                  f"{path}` writes a commented template")])
+    try:
+        text = path.read_bytes().decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        raise InputError([Problem(str(path), None, None, f"not UTF-8 text ({exc.reason})")])
+    return _parse(text, str(path), str(path))
+
+
+def _parse(text: str, file: str, source: str) -> Scenario:
+    def problem(line, key, msg):
+        return Problem(file, line, key, msg, row_label="line", column_label="key")
+
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        line = getattr(exc, "lineno", None)
+        raise InputError([problem(line, None, f"not valid TOML: {exc}")])
+    lines = _key_lines(text)
+    problems, values = [], {}
+    for key, value in data.items():
+        f = _BY_KEY.get(key)
+        if f is None:
+            problems.append(problem(lines.get(key), key, "unknown key; " + did_you_mean(key,
+                                    _BY_KEY)))
+            continue
+        msg = _check(f, value)
+        if msg:
+            problems.append(problem(lines.get(key), key, msg))
+        else:
+            values[key] = float(value) if f.kind is float else value
+    merged = {f.key: values.get(f.key, f.default) for f in FIELDS}
+    if not problems:
+        for key, msg in _cross_checks(merged):
+            problems.append(problem(lines.get(key), key, msg))
+    if problems:
+        raise InputError(problems)
+    return Scenario(source=source, **{f.attr: merged[f.key] * f.scale if f.kind is float
+                                      else merged[f.key] for f in FIELDS})
+
+
+def _key_lines(text: str) -> dict[str, int]:
+    out = {}
+    for i, line in enumerate(text.splitlines(), start=1):
+        m = re.match(r'\s*["\']?([A-Za-z0-9_\-]+)["\']?\s*=', line)
+        if m:
+            out.setdefault(m.group(1), i)
+    return out
+
+
+def _check(f: Field, value) -> str | None:
+    """What is wrong with one value, or None."""
+    if f.kind is str:
+        return None if isinstance(value, str) and value.strip() else \
+            f"must be a non-empty text in quotes (got {value!r})"
+    ok = isinstance(value, int) if f.kind is int else isinstance(value, (int, float))
+    if isinstance(value, bool) or not ok:
+        what = "a whole number" if f.kind is int else "a number"
+        return f"must be {what} (got {value!r})"
+    low_bad = value <= f.lo if f.lo_open else value < f.lo
+    if low_bad or value > f.hi:
+        lo = f"> {f.lo:g}" if f.lo_open else f">= {f.lo:g}"
+        return f"must be {lo} and <= {f.hi:g} (got {value:g})"
+    return None
+
+
+def _cross_checks(v: dict) -> list[tuple[str, str]]:
+    out = []
+
+    def need(ok, key, msg):
+        if not ok:
+            out.append((key, msg))
+
+    need(v["battery_charging_V"] >= v["battery_nominal_V"], "battery_charging_V",
+         f"must be >= battery_nominal_V ({v['battery_nominal_V']:g}) (got "
+         f"{v['battery_charging_V']:g})")
+    need(v["max_rpm"] > v["sailing_rpm"], "max_rpm", f"must be > sailing_rpm "
+         f"({v['sailing_rpm']:g}) (got {v['max_rpm']:g})")
+    for a in ("turns", "strands", "ring_radius"):
+        lo_key, hi_key = (f"{a}_min_mm", f"{a}_max_mm") if a == "ring_radius" else \
+            (f"{a}_min", f"{a}_max")
+        need(v[hi_key] >= v[lo_key], hi_key, f"must be >= {lo_key} ({v[lo_key]:g}) "
+             f"(got {v[hi_key]:g})")
+    span = v["ring_radius_max_mm"] - v["ring_radius_min_mm"]
+    need(span == 0 or v["ring_radius_step_mm"] <= span, "ring_radius_step_mm",
+         f"must be <= ring_radius_max_mm - ring_radius_min_mm ({span:g}) (got "
+         f"{v['ring_radius_step_mm']:g})")
+    need(v["ring_radius_max_mm"] < v["max_rotor_diameter_mm"] / 2, "ring_radius_max_mm",
+         f"must be < max_rotor_diameter_mm / 2 ({v['max_rotor_diameter_mm'] / 2:g}) (got "
+         f"{v['ring_radius_max_mm']:g})")
+    hub = v["shaft_diameter_mm"] / 2 + v["hub_clearance_mm"]
+    need(hub < v["ring_radius_max_mm"], "hub_clearance_mm", f"shaft radius + hub_clearance_mm "
+         f"({hub:g} mm) must be < ring_radius_max_mm ({v['ring_radius_max_mm']:g})")
+    need(hub < v["max_rotor_diameter_mm"] / 2, "shaft_diameter_mm", f"shaft radius + hub "
+         f"clearance ({hub:g} mm) must be < max_rotor_diameter_mm / 2")
+    fixed = 2 * v["running_clearance_mm"] + 2 * v["resin_skin_mm"]
+    need(fixed < v["max_axial_length_mm"], "max_axial_length_mm", f"must exceed twice the "
+         f"running clearance plus twice the resin skin ({fixed:g} mm) (got "
+         f"{v['max_axial_length_mm']:g})")
+    return out
+
+
+def render_template() -> str:
+    """The commented scenario template (also the built-in demo file) generated from FIELDS."""
+    out = ["# afpm scenario: the boat, the space and the workshop practice a design must fit.",
+           "# Units are in the key names (mm, V, ohm, C, K, N m). A deleted line takes the default",
+           "# shown here; the comment above each value says why it is the default.",
+           "# Demo values: \"Kittiwake\", a fictional 10 m sloop with a 12 V bank.",
+           "# Safety: guard the rotating shaft; strong magnets pinch and shatter; charge through a",
+           "# regulator with over-current protection; follow local codes, the applicable marine",
+           "# electrical standards and a qualified marine electrician."]
+    group = None
+    for f in FIELDS:
+        if f.group != group:
+            group = f.group
+            out += ["", f"# --- {_GROUP_TITLES[group]} ---"]
+        value = f'"{f.default}"' if f.kind is str else (f"{f.default:g}" if f.kind is int
+                                                         else _float_text(f.default))
+        out += [f"# {f.reason}", f"{f.key} = {value}"]
+    return "\n".join(out) + "\n"
+
+
+def _float_text(x: float) -> str:
+    text = f"{x:g}"
+    return text if any(c in text for c in ".e") else text + ".0"
+
+
+def write_template(path) -> Path:
+    """Write the commented template to ``path``; refuse to overwrite an existing file."""
+    path = Path(path)
+    if path.exists():
+        raise InputError([Problem(str(path), None, None, "already exists; choose a new file "
+                                  "name or move the old file away (it is never overwritten)")])
+    if not path.parent.is_dir():
+        raise InputError([Problem(str(path), None, None, f"folder {path.parent} does not exist")])
+    path.write_text(render_template(), encoding="utf-8")
+    return path
+
+
+if __name__ == "__main__":  # regenerate optimiser/data/demo_scenario.toml
+    print(render_template(), end="")
