@@ -132,6 +132,9 @@ def load_catalogs(directory) -> Catalogs:
     Raises InputError listing every problem found in any of the files.
     """
     directory = Path(directory)
+    if not directory.is_dir():
+        raise InputError([Problem(str(directory), None, None, "folder not found; expected a "
+                                  "folder with " + ", ".join(f"{n}.csv" for n in CATALOG_NAMES))])
     frames, files, hashes, problems = {}, {}, {}, []
     for name in CATALOG_NAMES:
         path = directory / f"{name}.csv"
