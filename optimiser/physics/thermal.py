@@ -250,7 +250,7 @@ def thermal_network(
     r_fa = r_radial + 1.0 / (h_s * area_exposed)
 
     r_total = r_cf + 1.0 / (1.0 / (r_fr + r_ra) + 1.0 / r_fa)
-    return ThermalNetwork(r_cf, r_fr, r_ra, r_fa, r_total)
+    return ThermalNetwork(*(np.array(x) for x in np.broadcast_arrays(r_cf, r_fr, r_ra, r_fa, r_total)))
 
 
 def stator_thermal_resistance(
