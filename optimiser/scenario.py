@@ -169,7 +169,8 @@ def _parse(text: str, file: str, source: str) -> Scenario:
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
-        line = getattr(exc, "lineno", None)
+        found = re.search(r"at line (\d+)", str(exc))  # Python 3.11 has no exc.lineno
+        line = int(found.group(1)) if found else None
         raise InputError([problem(line, None, f"not valid TOML: {exc}")])
     lines = _key_lines(text)
     problems, values = [], {}
@@ -186,7 +187,7 @@ def _parse(text: str, file: str, source: str) -> Scenario:
             values[key] = float(value) if f.kind is float else value
     merged = {f.key: values.get(f.key, f.default) for f in FIELDS}
     if not problems:
-        for key, msg in _cross_checks(merged):
+        for key, msg in _cross_checks(merged, lines):
             problems.append(problem(lines.get(key), key, msg))
     if problems:
         raise InputError(problems)
@@ -219,39 +220,43 @@ def _check(f: Field, value) -> str | None:
     return None
 
 
-def _cross_checks(v: dict) -> list[tuple[str, str]]:
+def _cross_checks(v: dict, in_file) -> list[tuple[str, str]]:
+    """Checks between keys; each is reported on a key the user wrote, if any."""
     out = []
 
-    def need(ok, key, msg):
-        if not ok:
-            out.append((key, msg))
+    def order(lo_key, hi_key, strict=False, lo=None, hi=None, lo_name=None, hi_name=None):
+        lo = v[lo_key] if lo is None else lo
+        hi = v[hi_key] if hi is None else hi
+        lo_name, hi_name = lo_name or lo_key, hi_name or hi_key
+        if (lo < hi) if strict else (lo <= hi):
+            return
+        if hi_key in in_file or lo_key not in in_file:
+            out.append((hi_key, f"must be {'>' if strict else '>='} {lo_name} ({lo:g}) "
+                                f"(got {hi:g})"))
+        elif lo_name != lo_key:  # a derived quantity: name it
+            out.append((lo_key, f"{lo_name} ({lo:g}) must be {'<' if strict else '<='} "
+                                f"{hi_name} ({hi:g})"))
+        else:
+            out.append((lo_key, f"must be {'<' if strict else '<='} {hi_name} ({hi:g}) "
+                                f"(got {lo:g})"))
 
-    need(v["battery_charging_V"] >= v["battery_nominal_V"], "battery_charging_V",
-         f"must be >= battery_nominal_V ({v['battery_nominal_V']:g}) (got "
-         f"{v['battery_charging_V']:g})")
-    need(v["max_rpm"] > v["sailing_rpm"], "max_rpm", f"must be > sailing_rpm "
-         f"({v['sailing_rpm']:g}) (got {v['max_rpm']:g})")
-    for a in ("turns", "strands", "ring_radius"):
-        lo_key, hi_key = (f"{a}_min_mm", f"{a}_max_mm") if a == "ring_radius" else \
-            (f"{a}_min", f"{a}_max")
-        need(v[hi_key] >= v[lo_key], hi_key, f"must be >= {lo_key} ({v[lo_key]:g}) "
-             f"(got {v[hi_key]:g})")
+    order("battery_nominal_V", "battery_charging_V")
+    order("sailing_rpm", "max_rpm", strict=True)
+    order("turns_min", "turns_max")
+    order("strands_min", "strands_max")
+    order("ring_radius_min_mm", "ring_radius_max_mm")
     span = v["ring_radius_max_mm"] - v["ring_radius_min_mm"]
-    need(span == 0 or v["ring_radius_step_mm"] <= span, "ring_radius_step_mm",
-         f"must be <= ring_radius_max_mm - ring_radius_min_mm ({span:g}) (got "
-         f"{v['ring_radius_step_mm']:g})")
-    need(v["ring_radius_max_mm"] < v["max_rotor_diameter_mm"] / 2, "ring_radius_max_mm",
-         f"must be < max_rotor_diameter_mm / 2 ({v['max_rotor_diameter_mm'] / 2:g}) (got "
-         f"{v['ring_radius_max_mm']:g})")
+    if span > 0:
+        order("ring_radius_step_mm", "ring_radius_max_mm", hi=span,
+              hi_name="ring_radius_max_mm - ring_radius_min_mm", lo_name="ring_radius_step_mm")
+    order("ring_radius_max_mm", "max_rotor_diameter_mm", strict=True,
+          hi=v["max_rotor_diameter_mm"] / 2, hi_name="max_rotor_diameter_mm / 2")
     hub = v["shaft_diameter_mm"] / 2 + v["hub_clearance_mm"]
-    need(hub < v["ring_radius_max_mm"], "hub_clearance_mm", f"shaft radius + hub_clearance_mm "
-         f"({hub:g} mm) must be < ring_radius_max_mm ({v['ring_radius_max_mm']:g})")
-    need(hub < v["max_rotor_diameter_mm"] / 2, "shaft_diameter_mm", f"shaft radius + hub "
-         f"clearance ({hub:g} mm) must be < max_rotor_diameter_mm / 2")
+    order("hub_clearance_mm", "ring_radius_max_mm", strict=True, lo=hub,
+          lo_name="shaft radius + hub_clearance_mm")
     fixed = 2 * v["running_clearance_mm"] + 2 * v["resin_skin_mm"]
-    need(fixed < v["max_axial_length_mm"], "max_axial_length_mm", f"must exceed twice the "
-         f"running clearance plus twice the resin skin ({fixed:g} mm) (got "
-         f"{v['max_axial_length_mm']:g})")
+    order("running_clearance_mm", "max_axial_length_mm", strict=True, lo=fixed,
+          lo_name="2 x (running_clearance_mm + resin_skin_mm)")
     return out
 
 
