@@ -173,6 +173,8 @@ def _read_catalog(name: str, file: str, data: bytes) -> tuple[pd.DataFrame | Non
     semicolon = header_line.count(";") > header_line.count(",")
     delim = ";" if semicolon else ","
     header = [h.strip() for h in next(csv.reader([header_line], delimiter=delim))]
+    while header and header[-1] == "":  # spreadsheets pad rows with empty trailing columns
+        header.pop()
     schema = SCHEMAS[name]
     problems: list[Problem] = []
     columns = _match_header(file, header_row, header, schema, problems)
@@ -185,6 +187,10 @@ def _read_catalog(name: str, file: str, data: bytes) -> tuple[pd.DataFrame | Non
     records, rows = [], []
     for row, line in lines[1:]:
         cells = [c.strip() for c in next(csv.reader([line], delimiter=delim))]
+        while len(cells) > len(header) and cells[-1] == "":
+            cells.pop()
+        if not any(cells):  # a row of bare delimiters left by a spreadsheet
+            continue
         if len(cells) > len(header):
             problems.append(Problem(file, row, None, f"has {len(cells)} values but the header has "
                                     f"{len(header)} columns; is there a stray '{delim}'?"))

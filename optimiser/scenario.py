@@ -149,7 +149,7 @@ DEMO_SCENARIO = "demo_scenario.toml"
 def load_scenario(path=None) -> Scenario:
     """Read a scenario TOML file; ``None`` gives the built-in demo (Kittiwake)."""
     if path is None:
-        text = resources.files("optimiser.data").joinpath(DEMO_SCENARIO).read_text("utf-8")
+        text = resources.files("optimiser").joinpath("data", DEMO_SCENARIO).read_text("utf-8")
         return _parse(text, "built-in demo scenario", "built-in demo")
     path = Path(path)
     if not path.is_file():

@@ -132,6 +132,15 @@ def test_semicolons_with_decimal_commas_are_accepted(catalog_copy, demo_catalogs
     frames_equal(load_catalogs(catalog_copy), load_catalogs(demo_catalogs_dir))
 
 
+def test_spreadsheet_padding_is_ignored(catalog_copy, demo_catalogs_dir):
+    # empty trailing columns and rows of bare delimiters, as spreadsheets save them
+    path = catalog_copy / "discs.csv"
+    lines = path.read_text(encoding="utf-8").splitlines()
+    out = [ln if ln.startswith("#") else ln + ",," for ln in lines] + [",,,,,,"]
+    path.write_text("\n".join(out) + "\n", encoding="utf-8")
+    frames_equal(load_catalogs(catalog_copy), load_catalogs(demo_catalogs_dir))
+
+
 def test_inch_columns_are_converted_once(catalog_copy):
     # a 2 x 1 x 0.5 in block, a common imperial stock size: 50.8 x 25.4 x 12.7 mm
     (catalog_copy / "magnets.csv").write_text(
@@ -314,7 +323,7 @@ def test_layout_rules(runner, catalog_copy, set_cell):
 def test_row_with_too_many_values(runner, catalog_copy):
     path = catalog_copy / "discs.csv"
     path.write_text("id,diameter_mm,thickness_mm,price_each\nd1,300,8,30,extra,\n", "utf-8")
-    assert_problem(check(runner, catalog_copy), path, None, None, "row 2:", "6 values", "4 columns")
+    assert_problem(check(runner, catalog_copy), path, None, None, "row 2:", "5 values", "4 columns")
 
 
 def test_not_utf8(runner, catalog_copy):

@@ -62,7 +62,7 @@ def test_demo_is_kittiwake_in_si():
 
 def test_packaged_demo_file_is_the_rendered_template():
     # the reasons live once, in FIELDS; the data file must not drift from them
-    packaged = resources.files("optimiser.data").joinpath("demo_scenario.toml").read_text("utf-8")
+    packaged = resources.files("optimiser").joinpath("data", "demo_scenario.toml").read_text("utf-8")
     assert packaged == render_template()
     for f in FIELDS:
         assert f"\n{f.key} = " in packaged and f"# {f.reason}\n{f.key} = " in packaged
