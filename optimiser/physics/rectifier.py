@@ -479,13 +479,14 @@ def bridge_inductive(e, R, L, omega_e, V_diode, V_batt, R_batt, *, n_periods=4, 
     bdf = coeffs(R1 + 1.5 * L_h)
     i_prev = np.zeros((3, n))
     i_now = np.zeros((3, n))
+    sign_prev = np.zeros((3, n))
+    sign_now = np.zeros((3, n))
     acc_prev = None
     total = int(n_periods) * K
     for j in range(total):
         # BDF2 extrapolates i across the step; where a diode switched in the last step the
         # derivative jumped, so restart with backward Euler there (order loss otherwise)
-        restart = np.any((i_now > 0) != (i_prev > 0), axis=0) | \
-            np.any((i_now < 0) != (i_prev < 0), axis=0)
+        restart = (sign_now != sign_prev).any(axis=0)
         if j == 0 or restart.all():
             Rp, invRp, inv2, inv3 = be
             hist = L_h * i_now
@@ -504,6 +505,7 @@ def bridge_inductive(e, R, L, omega_e, V_diode, V_batt, R_batt, *, n_periods=4, 
             A, B, I = _rails_battery(ep[0], ep[1], ep[2], Rp, V0, inv2, inv3)
         i_new = (np.maximum(ep - A, 0.0) - np.maximum(B - ep, 0.0)) * invRp
         i_prev, i_now = i_now, i_new
+        sign_prev, sign_now = sign_now, np.sign(i_new)
         if j % K == 0:
             if j >= K:
                 acc_prev = acc
