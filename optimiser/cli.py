@@ -10,13 +10,19 @@ import functools
 import json
 from pathlib import Path
 
+import numpy as np
 import typer
 from rich.console import Console
+from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn, TimeRemainingColumn
 from rich.table import Table
 
 from .catalogs import catalog_summary, load_catalogs
+from .design import load_design
 from .errors import InputError, Problem
+from .evaluate import Evaluator, Settings
+from .report.evaluation import design_report, rpm_table
 from .scenario import FIELDS, load_scenario, write_template
+from .search.run import Budget, SearchRun, StopFlag, create_run, new_run_dir, run_search
 
 __all__ = ["app", "run_checked", "input_command", "report_problems", "EXIT_INPUT"]
 
@@ -131,3 +137,171 @@ def scenario_check(file: Path = typer.Argument(None, help="Scenario file; omit f
         value = getattr(scenario, f.attr)
         table.add_row(f.key, str(value) if f.kind is not float else f"{value / f.scale:g}")
     Console().print(table)
+
+
+# --- afpm evaluate ------------------------------------------------------------------------------
+def _load_inputs(scenario_file, catalogs_dir):
+    return load_scenario(scenario_file), load_catalogs(catalogs_dir)
+
+
+def _checked_design(evaluator, design_file):
+    """A design file read against the catalogs, with its parallel paths checked against the winding."""
+    batch = load_design(design_file, evaluator.catalogs)
+    table = evaluator.windings
+    combo = int(table.index(batch.layout, batch.multiple)[0])
+    if not table.valid[combo]:
+        raise InputError([Problem(str(design_file), None, "layout",
+                                  f"no balanced three-phase winding: {table.reasons[combo]}",
+                                  "line", "key")])
+    if not table.paths_allowed(np.array([combo]), batch.parallel_paths)[0]:
+        allowed = table.windings[combo].allowed_parallel_paths
+        raise InputError([Problem(str(design_file), None, "parallel_paths",
+                                  f"this winding allows {', '.join(map(str, allowed))} parallel "
+                                  f"paths (got {int(batch.parallel_paths[0])})", "line", "key")])
+    return batch
+
+
+def _print_report(report, rows):
+    console = Console()
+    d = report["design"]
+    console.print(f"[bold]Design[/bold] {d['magnet']} magnets, layout {d['layout']} x{d['multiple']}, "
+                  f"ring {d['ring_radius_mm']:g} mm, disc {d['disc']}, wire {d['wire']} x{d['strands']}, "
+                  f"{d['turns']} turns, {d['parallel_paths']} path(s), {d['connection']}")
+    g, e, wnd = report["geometry"], report["electrical"], report["winding"]
+    table = Table(title="Build and electrical", show_header=False)
+    table.add_column("quantity")
+    table.add_column("value", justify="right")
+    for label, value in [
+        ("coils / poles", f"{wnd['coils']} / {wnd['poles']}"),
+        ("winding factor", f"{wnd['winding_factor']:.3f}"),
+        ("series coils per path", str(wnd["series_coils_per_path"])),
+        ("coil hole (radial x tangential)", f"{g['coil_hole_radial_m']*1e3:.1f} x {g['coil_hole_tangential_m']*1e3:.1f} mm"),
+        ("coil leg width", f"{g['coil_leg_width_m']*1e3:.1f} mm"),
+        ("coil thickness", f"{g['coil_thickness_m']*1e3:.2f} mm"),
+        ("stator thickness / magnet face gap", f"{g['stator_thickness_m']*1e3:.2f} / {g['face_gap_m']*1e3:.2f} mm"),
+        ("mean turn length", f"{g['mean_turn_length_m']*1e3:.0f} mm"),
+        ("magnet Br (at temperature)", f"{report['magnet']['remanence_T']:.3f} T at {report['magnet']['temperature_C']:.0f} C"),
+        ("phase resistance 20 C / hot", f"{e['phase_resistance_20C_ohm']:.4f} / {e['phase_resistance_hot_ohm']:.4f} ohm"),
+        ("phase inductance", f"{e['phase_inductance_H']*1e3:.3f} mH"),
+        ("line EMF per rpm", f"{e['emf_line_rms_per_rpm_V']*1e3:.2f} mV rms"),
+        ("back-iron flux density", f"{e['back_iron_flux_density_T']:.2f} T"),
+        ("rotor attraction", f"{e['axial_attraction_N']:.0f} N"),
+        ("cut-in", f"{report['cut_in_rpm']:.0f} rpm"),
+        ("copper", f"{report['materials']['copper_mass_kg']:.2f} kg, {report['materials']['wire_length_m']:.0f} m"),
+        ("magnet bill", f"{report['materials']['magnet_cost']:.2f}"),
+    ]:
+        table.add_row(label, value)
+    console.print(table)
+    speeds = Table(title="Against shaft speed")
+    for col in ("rpm", "charge A", "battery W", "torque N m", "efficiency", "coil C", "line V rms (open)"):
+        speeds.add_column(col, justify="right")
+    for r in rows:
+        speeds.add_row(f"{r['rpm']:.0f}", f"{r['charge_current_A']:.2f}", f"{r['battery_power_W']:.1f}",
+                       f"{r['drag_torque_Nm']:.3f}", f"{r['efficiency']:.2f}",
+                       "runaway" if r["thermal_runaway"] else f"{r['coil_temperature_C']:.0f}",
+                       f"{r['open_circuit_line_rms_V']:.1f}")
+    console.print(speeds)
+    status = "[green]fits and meets every limit[/green]" if report["feasible"] else "[red]does not work:[/red]"
+    console.print(status)
+    for p in report["problems"]:
+        console.print(f"  - {p}")
+    for w in report["warnings"]:
+        console.print(f"[yellow]warning:[/yellow] {w}")
+
+
+@app.command("evaluate")
+@input_command
+def evaluate_command(
+    design: Path = typer.Option(..., "--design", help="Design file (TOML) with magnet, layout, "
+                                "multiple, ring_radius_mm, disc, wire, strands, turns, parallel_paths, connection."),
+    scenario: Path = typer.Option(None, "--scenario", help="Scenario file; omit for the demo boat."),
+    catalogs: Path = typer.Option(Path("catalogs"), "--catalogs", help="Folder of the catalog CSVs."),
+    as_json: bool = typer.Option(False, "--json", help="Print one JSON object (SI units) for programs."),
+    reference: bool = typer.Option(False, "--reference", help="Use the 3-D reference field model."),
+):
+    """Evaluate one design: geometry, winding, EMF, charge current, drag torque, temperatures."""
+    sc, cat = _load_inputs(scenario, catalogs)
+    evaluator = Evaluator(cat, sc, Settings(field_model="reference" if reference else "fast"))
+    batch = _checked_design(evaluator, design)
+    report = design_report(evaluator, batch)
+    rows = rpm_table(evaluator, batch)
+    report["rpm_table"] = rows
+    if as_json:
+        typer.echo(json.dumps(report, indent=2))
+    else:
+        _print_report(report, rows)
+
+
+# --- afpm search --------------------------------------------------------------------------------
+def _budget(hours, minutes, evaluations):
+    if hours is not None and minutes is not None:
+        raise typer.BadParameter("give --hours or --minutes, not both")
+    seconds = hours * 3600.0 if hours is not None else (minutes * 60.0 if minutes is not None else None)
+    if seconds is None and evaluations is None:
+        return None
+    return Budget(evaluations=evaluations, seconds=seconds)
+
+
+@app.command("search")
+@input_command
+def search_command(
+    scenario: Path = typer.Option(None, "--scenario", help="Scenario file; omit for the demo boat."),
+    catalogs: Path = typer.Option(Path("catalogs"), "--catalogs", help="Folder of the catalog CSVs."),
+    hours: float = typer.Option(None, "--hours", min=0.0, help="Running-time budget in hours."),
+    minutes: float = typer.Option(None, "--minutes", min=0.0, help="Running-time budget in minutes."),
+    evaluations: int = typer.Option(None, "--evaluations", min=1, help="Budget of distinct designs evaluated."),
+    population: int = typer.Option(100, "--population", min=4, help="Designs per generation."),
+    seed: int = typer.Option(1, "--seed", help="Random seed: the same seed and budget give the same front."),
+    run: Path = typer.Option(None, "--run", help="Run folder: resumes it if it holds a run, else starts one there."),
+):
+    """Search the catalog choices overnight (NSGA-II style GA) for the Pareto front of charge
+    current, drag torque, magnet bill and coil temperature. Ctrl-C saves; --run DIR resumes."""
+    budget = _budget(hours, minutes, evaluations)
+    if run is not None and (run / "run.json").exists():
+        search = SearchRun(run)
+        if budget is not None:
+            search.set_budget(budget)
+        changed = search.changed_catalogs()
+        if changed:
+            typer.echo(f"note: {', '.join(changed)} changed since this run started; the run keeps "
+                       "using its own snapshot in " + str(run / "catalogs"), err=True)
+        typer.echo(f"resuming {run} at generation {len(search.state.history)}, "
+                   f"{search.evaluations} designs evaluated; budget {search.budget.describe()}")
+    else:
+        if run is not None and run.exists() and any(run.iterdir()):
+            raise InputError([Problem(str(run), None, None, "folder exists and holds no run: choose "
+                                      "a new folder (an earlier run is never overwritten)")])
+        run_dir = create_run(run or new_run_dir(), scenario, catalogs, seed=seed, population=population,
+                             budget=budget or Budget(seconds=8 * 3600.0))
+        search = SearchRun(run_dir)
+        typer.echo(f"new run {run_dir}; budget {search.budget.describe()}; Ctrl-C saves and stops")
+    if search.done():
+        typer.echo("the run's budget is spent; give a larger --evaluations, --minutes or --hours to continue")
+        search.save("finished", force=True)
+        return
+    b = search.budget
+
+    def fraction():
+        parts = []
+        if b.evaluations:
+            parts.append(search.evaluations / b.evaluations)
+        if b.seconds:
+            parts.append(search.state.elapsed_s / b.seconds)
+        return min(max(parts), 1.0)
+
+    columns = [TextColumn("gen {task.fields[gen]}"), BarColumn(),
+               TextColumn("{task.fields[evals]} designs, {task.fields[feasible]} feasible, "
+                          "front {task.fields[front]}, HV {task.fields[hv]}"),
+               TimeElapsedColumn(), TextColumn("left"), TimeRemainingColumn()]
+    with Progress(*columns, transient=False) as progress, StopFlag() as stop:
+        task = progress.add_task("search", total=1000, gen=0, evals=search.evaluations, feasible=0,
+                                 front=len(search.state.archive), hv="-", completed=fraction() * 1000)
+
+        def update(row):
+            progress.update(task, completed=fraction() * 1000, gen=row["generation"], evals=row["evaluations"],
+                            feasible=row["feasible"], front=row["front_size"], hv=f"{row['hypervolume']:.4f}")
+
+        status = run_search(search, on_generation=update, stop=stop)
+    typer.echo(f"{status}: {search.evaluations} designs evaluated, {len(search.state.archive)} on the front; "
+               f"see {search.dir / 'front.csv'}"
+               + ("" if status == "finished" else f"; resume with: afpm search --run {search.dir}"))

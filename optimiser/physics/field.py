@@ -516,6 +516,8 @@ def coil_flux_linkage_harmonics(remanence_T, recoil_permeability, magnet_length_
     x0 = u0 * t / 2
     beta = _end_decay_rate(u0, h, d, mu, t)
     spill = _end_spill(u0, beta, a0, w, c_h, L, p / Rm, H)
+    # B0 decays as sech(u0 d) while sinh(x0) grows: cap x0 where B0 has underflowed anyway
+    x0 = np.minimum(x0, 700.0)
     return lam - 2 * B0 / u0 * np.sinh(x0) / x0 * spill
 
 
@@ -645,7 +647,7 @@ def flux_per_pole(remanence_T, recoil_permeability, magnet_length_m, magnet_widt
     d = np.asarray(face_gap_m, dtype=float)[..., None, None] / 2
     h = np.asarray(magnet_thickness_m, dtype=float)[..., None, None]
     if surface == "face":
-        Bs = Bn * np.cosh(u * d)
+        Bs = Bn * np.cosh(np.minimum(u * d, 700.0))  # cap: beyond it B_n has underflowed
     else:
         mu = np.asarray(recoil_permeability, dtype=float)[..., None, None]
         p = np.asarray(pole_pairs, dtype=float)[..., None, None]
@@ -653,7 +655,7 @@ def flux_per_pole(remanence_T, recoil_permeability, magnet_length_m, magnet_widt
         W = np.asarray(magnet_width_m, dtype=float)[..., None, None]
         alpha = p * W / (np.pi * r[..., None])
         Brn = 4 * Br / (n * np.pi) * np.sin(n * np.pi * alpha / 2)
-        Bs = Brn - mu * Bn * np.sinh(u * d) / np.sinh(u * h)
+        Bs = Brn - mu * Bn * np.sinh(np.minimum(u * d, 700.0)) / np.sinh(np.minimum(u * h, 700.0))
     per_slice = np.sum(Bs * 2 * np.sin(n * np.pi / 2) / u, axis=-1)
     return np.sum(wr * per_slice, axis=-1)
 
@@ -715,7 +717,8 @@ def gap_field_rms_in_coil(remanence_T, recoil_permeability, magnet_length_m, mag
                                        magnet_width_m, magnet_thickness_m, face_gap_m, pole_pairs,
                                        ring_radius_m, orders, n_slices)
     t = np.asarray(coil_thickness_m, dtype=float)[..., None, None]
-    x = u * t
+    # B_n^2 decays as sech^2(u g/2) faster than sinh(u t) grows (t < g): cap x where B_n^2 is 0
+    x = np.minimum(u * t, 700.0)
     sh = np.where(x > 1e-8, np.sinh(x) / (2 * np.where(x > 1e-8, x, 1.0)), 0.5)
     Lsum = np.sum(wr, axis=-1)[..., None]
     Bz2 = np.einsum("...s,...sh->...h", wr, Bn**2 * (0.5 + sh)) / Lsum

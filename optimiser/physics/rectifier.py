@@ -634,19 +634,50 @@ def delta_circulating_current(e_delta, R_delta, L_delta, omega_e, L_zero=None):
     ----------
     .. [1] C. L. Fortescue, Trans. AIEE 37, 1918 (symmetrical components) [from memory].
     """
-    e_delta = np.asarray(e_delta, dtype=float)
-    M = e_delta.shape[-1]
-    e0 = e_delta.mean(axis=-2)
-    E = np.fft.rfft(e0, axis=-1) / M
-    h = np.arange(E.shape[-1])
     Lz = L_delta if L_zero is None else L_zero
-    Z = _col(R_delta) + 1j * h * _col(omega_e) * _col(Lz)
-    I = E / Z
-    # Parseval for a real signal from its one-sided spectrum
-    weight = np.full(E.shape[-1], 2.0)
+    return delta_circulating_from_spectrum(zero_sequence_spectrum(e_delta), R_delta, Lz, omega_e)
+
+
+def zero_sequence_spectrum(e_delta):
+    """One-sided spectrum E0_h / M of the zero-sequence EMF e0 = (e_ab + e_bc + e_ca) / 3.
+
+    Parameters
+    ----------
+    e_delta : array_like, shape (..., 3, M)
+        Branch EMFs over one electrical period [V].
+
+    Returns
+    -------
+    ndarray of complex, shape (..., M // 2 + 1)
+        rfft(e0) / M [V]; linear in the EMF, so a caller scaling the EMF can scale this instead.
+    """
+    e_delta = np.asarray(e_delta, dtype=float)
+    return np.fft.rfft(e_delta.mean(axis=-2), axis=-1) / e_delta.shape[-1]
+
+
+def delta_circulating_from_spectrum(E0, R_delta, L_zero, omega_e):
+    """Circulating current and loss from `zero_sequence_spectrum` (see `delta_circulating_current`).
+
+    Parameters
+    ----------
+    E0 : array_like of complex, shape (..., K)
+        One-sided zero-sequence spectrum (K = M // 2 + 1 for M samples, M even) [V].
+    R_delta, L_zero, omega_e : array_like, batch shape
+        Branch resistance [ohm], zero-sequence branch inductance [H], electrical speed [rad/s].
+
+    Returns
+    -------
+    i_rms : ndarray [A]
+    copper_loss : ndarray, 3 R_delta i_rms^2 [W]
+    """
+    E0 = np.asarray(E0)
+    h = np.arange(E0.shape[-1])
+    Z = _col(R_delta) + 1j * h * _col(omega_e) * _col(L_zero)
+    I = E0 / Z
+    # Parseval for a real signal from its one-sided spectrum (M even: the last bin is Nyquist)
+    weight = np.full(E0.shape[-1], 2.0)
     weight[0] = 1.0
-    if M % 2 == 0:
-        weight[-1] = 1.0
+    weight[-1] = 1.0
     i_rms = np.sqrt((weight * np.abs(I) ** 2).sum(axis=-1))
     return i_rms, 3.0 * np.asarray(R_delta, dtype=float) * i_rms**2
 

@@ -1,0 +1,4 @@
+"""`python -m optimiser` runs the afpm command line."""
+from .cli import app
+
+app()

@@ -1,0 +1,384 @@
+"""The evaluator: catalogs + scenario + a batch of designs -> performance, objectives and constraints.
+
+This is the only module that knows the whole pipeline. It turns catalog rows into arrays once
+(`Evaluator.__init__`), then chains the pure physics kernels for thousands of designs per call:
+
+    geometry -> field (Fourier, per tesla of Br) -> winding -> EMF per rpm -> resistance, inductance
+    -> [rectifier into the battery -> losses -> coil and magnet temperature] repeated to a fixed point
+    -> shaft torque, energy balance, costs, objectives and constraints.
+
+The search sees only `Evaluator.evaluate` and the names below; it never imports the physics.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from math import gcd
+
+import numpy as np
+
+from .design import DesignBatch
+from .physics import electrical, emf, field as fieldmodel, geometry, losses, rectifier, thermal
+from .physics.winding import WindingError, star_of_slots
+
+OBJECTIVES = ("charge_current_A", "drag_torque_Nm", "magnet_cost", "coil_temperature_C")
+"""Objective names in the order of `Evaluation.objectives`."""
+OBJECTIVE_SIGN = np.array([-1.0, 1.0, 1.0, 1.0])
+"""Multiply a value by its sign to get the minimisation form (charge current is maximised)."""
+
+CONSTRAINTS = tuple(name for name, _ in geometry.FIT_CHECKS) + (
+    "coil_too_hot", "magnet_too_hot", "back_iron_saturated", "cut_in_above_sailing", "winding_invalid",
+)
+"""Constraint names in the order of `Evaluation.constraints` (each <= 0 when satisfied)."""
+
+CONSTRAINT_REASONS = dict(geometry.FIT_CHECKS) | {
+    "coil_too_hot": "coil temperature above the wire's thermal class less the scenario's margin",
+    "magnet_too_hot": "magnet temperature above its grade's maximum working temperature",
+    "back_iron_saturated": "rotor disc too thin: back-iron flux density above saturation",
+    "cut_in_above_sailing": "cut-in speed above the sailing rpm: no charge while sailing",
+    "winding_invalid": "layout, multiple or parallel paths give no balanced three-phase winding",
+}
+
+ELV_LIMIT_AC_RMS_V = 50.0
+"""Extra-low voltage, AC: 50 V rms (IEC 61140 / IEC 60449 voltage band I, from memory)."""
+
+STATOR_RIM_M = 10e-3
+"""Resin cast beyond the coils' outer corners, for the stator's mounting ring [m]."""
+
+RUNAWAY_C = 400.0
+"""Coil temperature reported for a design with no steady state (thermal runaway) [C]."""
+
+
+@dataclass(frozen=True)
+class Settings:
+    """Model settings; defaults are the search's fast model (measured trade-offs in DEVELOPERS.md)."""
+
+    n_harmonics: int = 8
+    n_slices: int = 5
+    n_samples: int = 72
+    field_model: str = "fast"  # "fast" (Fourier, quasi-3-D) or "reference" (3-D cuboids + images)
+    inductance: bool = False   # include commutation (slower time-domain bridge) instead of resistive
+    thermal_iterations: int = 8
+    inductance_images: int = 4  # image coils per side summed exactly (8: 1.3 % closer, twice the cost)
+
+
+@dataclass
+class Evaluation:
+    """Results of one evaluate() call: every entry of `values` is an array of shape (n,)."""
+
+    values: dict
+    objectives: np.ndarray      # (n, 4), natural sense (current in A, torque, cost, temperature)
+    constraints: np.ndarray     # (n, len(CONSTRAINTS)), <= 0 satisfied
+    emf_waveform_V: np.ndarray = field(repr=False)  # (n, 3, M) phase EMF at the operating rpm
+
+    def __getitem__(self, name):
+        return self.values[name]
+
+    @property
+    def feasible(self):
+        return np.all(self.constraints <= 0.0, axis=1)
+
+    def problems(self, i):
+        """User-facing reasons for every failed constraint of design i."""
+        return [CONSTRAINT_REASONS[n] for n, g in zip(CONSTRAINTS, self.constraints[i]) if g > 0]
+
+
+class WindingTable:
+    """Star-of-slots windings of every (layout row, multiple) the catalog allows, built once."""
+
+    def __init__(self, layouts, orders):
+        self.offset = {}
+        self.windings, self.reasons = [], []
+        factors, kw = [], []
+        for row, lay in enumerate(layouts.itertuples(index=False)):
+            self.offset[row] = len(self.windings)
+            for k in range(int(lay.min_multiple), int(lay.max_multiple) + 1):
+                coils, poles = int(lay.coils_per_unit) * k, int(lay.poles_per_unit) * k
+                try:
+                    w = star_of_slots(coils, poles)
+                    self.windings.append(w)
+                    self.reasons.append("")
+                    factors.append(w.phase_factors(orders))
+                    kw.append(w.winding_factor)
+                except WindingError as exc:
+                    self.windings.append(None)
+                    self.reasons.append(str(exc))
+                    factors.append(np.zeros((3, len(orders)), complex))
+                    kw.append(0.0)
+        self.min_multiple = layouts["min_multiple"].to_numpy(int)
+        self.max_multiple = layouts["max_multiple"].to_numpy(int)
+        self.phase_factors = np.array(factors)
+        self.winding_factor = np.array(kw)
+        self.valid = np.array([w is not None for w in self.windings])
+        max_paths = 1 + max((max(w.allowed_parallel_paths) for w in self.windings if w), default=1)
+        self.paths_ok = np.zeros((len(self.windings), max_paths + 1), bool)
+        for i, w in enumerate(self.windings):
+            if w is not None:
+                self.paths_ok[i, list(w.allowed_parallel_paths)] = True
+
+    def index(self, layout, multiple):
+        """Row of each design in this table; -1 where the multiple is outside the layout's range."""
+        layout = np.asarray(layout)
+        offsets = np.array([self.offset[r] for r in range(len(self.offset))])
+        k = np.asarray(multiple)
+        inside = (k >= self.min_multiple[layout]) & (k <= self.max_multiple[layout])
+        return np.where(inside, offsets[layout] + k - self.min_multiple[layout], -1)
+
+    def valid_multiples(self, layout_row):
+        lo, hi = self.min_multiple[layout_row], self.max_multiple[layout_row]
+        return [k for k in range(lo, hi + 1) if self.valid[self.offset[layout_row] + k - lo]]
+
+    def paths_allowed(self, combo, paths):
+        paths = np.asarray(paths)
+        inside = (combo >= 0) & (paths >= 1) & (paths < self.paths_ok.shape[1])
+        return inside & self.paths_ok[np.where(combo >= 0, combo, 0), np.clip(paths, 0, self.paths_ok.shape[1] - 1)]
+
+
+class Evaluator:
+    """Evaluate batches of designs against one catalog set and one scenario."""
+
+    def __init__(self, catalogs, scenario, settings: Settings = Settings()):
+        self.catalogs, self.scenario, self.settings = catalogs, scenario, settings
+        self.orders = np.arange(1, 2 * settings.n_harmonics, 2)
+
+        def cols(frame, names, dtype=float):
+            return {n: frame[n].to_numpy(dtype) for n in names}
+
+        self.magnet = cols(catalogs.magnets, ("length_m", "width_m", "thickness_m", "remanence_T",
+                                              "max_temp_C", "recoil_permeability",
+                                              "br_temp_coeff_per_K", "price_each"))
+        self.wire = cols(catalogs.wires, ("bare_diameter_m", "overall_diameter_m", "thermal_class_C",
+                                          "price_per_kg"))
+        self.disc = cols(catalogs.discs, ("diameter_m", "thickness_m", "price_each"))
+        self.layout = cols(catalogs.layouts, ("coils_per_unit", "poles_per_unit"), int)
+        self.windings = WindingTable(catalogs.layouts, self.orders)
+
+    # -- the pipeline ---------------------------------------------------------------------------
+    def evaluate(self, batch: DesignBatch, rpm=None) -> Evaluation:
+        """Evaluate every design of `batch` at shaft speed `rpm` [rpm] (default: the sailing rpm).
+
+        `rpm` may be a scalar or an array of shape (n,) (one speed per design, e.g. an rpm sweep
+        of one design repeated).
+        """
+        sc, st = self.scenario, self.settings
+        n = len(batch)
+        rpm = np.broadcast_to(np.asarray(sc.sailing_rpm if rpm is None else rpm, float), (n,)).copy()
+        mag = {k: v[batch.magnet] for k, v in self.magnet.items()}
+        wire = {k: v[batch.wire] for k, v in self.wire.items()}
+        disc = {k: v[batch.disc] for k, v in self.disc.items()}
+        coils = self.layout["coils_per_unit"][batch.layout] * batch.multiple
+        poles = self.layout["poles_per_unit"][batch.layout] * batch.multiple
+        pole_pairs = poles // 2
+        combo = self.windings.index(batch.layout, batch.multiple)
+        winding_ok = (combo >= 0) & self.windings.valid[np.maximum(combo, 0)] \
+            & self.windings.paths_allowed(combo, batch.parallel_paths)
+        combo = np.maximum(combo, 0)
+        paths = np.maximum(batch.parallel_paths, 1)
+        series = np.maximum(coils // (3 * paths), 1)
+
+        coil = geometry.coil_geometry(batch.ring_radius_m, mag["length_m"], mag["width_m"], coils,
+                                      batch.turns, batch.strands, wire["overall_diameter_m"],
+                                      sc.coil_fill_factor, sc.coil_hole_clearance_m, sc.resin_skin_m,
+                                      sc.running_clearance_m)
+        fit = geometry.fit_margins(batch.ring_radius_m, mag["length_m"], mag["width_m"],
+                                   mag["thickness_m"], poles, disc["diameter_m"], disc["thickness_m"],
+                                   coil, min_coil_leg_m=sc.min_coil_leg_m,
+                                   max_rotor_diameter_m=sc.max_rotor_diameter_m,
+                                   max_axial_length_m=sc.max_axial_length_m,
+                                   shaft_diameter_m=sc.shaft_diameter_m, hub_clearance_m=sc.hub_clearance_m)
+        leg = np.maximum(coil.leg_width_m, 1e-4)
+        # A design wider than the axial envelope is infeasible whatever its field; evaluating its
+        # physics at the envelope keeps every number finite for the search's ranking.
+        gap_cap = np.maximum(sc.max_axial_length_m - 2.0 * (disc["thickness_m"] + mag["thickness_m"]),
+                             5e-3)
+        built = coil  # the coil as it would be built: reported and fit-checked
+        if np.any(coil.face_gap_m > gap_cap):
+            over = coil.face_gap_m > gap_cap
+            t_cap = gap_cap - 2.0 * (sc.resin_skin_m + sc.running_clearance_m)
+            coil = coil._replace(face_gap_m=np.where(over, gap_cap, coil.face_gap_m),
+                                 coil_thickness_m=np.where(over, np.maximum(t_cap, 1e-4), coil.coil_thickness_m),
+                                 stator_thickness_m=np.where(over, np.maximum(t_cap, 1e-4) + 2.0 * sc.resin_skin_m,
+                                                             coil.stator_thickness_m))
+        path_len, total_wire = geometry.winding_lengths(coil.mean_turn_length_m, batch.turns,
+                                                        batch.strands, coils, series)
+
+        # Field and EMF per tesla of remanence and per rpm: both are linear in Br and speed, so the
+        # thermal loop below only rescales them.
+        unit_br = np.ones(n)
+        lam = self._flux_linkage(batch, mag, coil, leg, pole_pairs, unit_br)
+        e_unit = emf.phase_emf_waveform(lam, self.windings.phase_factors[combo], series, batch.turns,
+                                        pole_pairs, np.ones(n), self.orders, n_samples=st.n_samples)
+        delta = batch.connection == 1
+        # Delta: the bridge sees the star equivalent (linear in the EMF, so converted once) and the
+        # zero-sequence (triplen) EMF drives a circulating current round the delta.
+        e_star_unit = e_unit.copy()
+        if np.any(delta):
+            e_star_unit[delta] = rectifier.delta_to_star(e_unit[delta], 1.0, 1.0)[0]
+        e_zero_unit = rectifier.zero_sequence_spectrum(e_unit[delta])
+        if not st.inductance:
+            # Balanced windings and an odd-harmonic field make the three phases one waveform
+            # shifted by thirds of a period, so the first sixth holds every conduction pattern and
+            # its means are the period's (see rectifier.bridge_resistive): keep only that sixth.
+            e_star_unit = np.ascontiguousarray(e_star_unit[..., : st.n_samples // 6])
+        line_unit = np.where(delta[:, None, None], e_unit, emf.line_line(e_unit))
+        line_peak_per_rpm_per_T = np.max(np.abs(line_unit), axis=(1, 2))
+        line_rms_per_rpm_per_T = np.sqrt(np.mean(line_unit ** 2, axis=(1, 2)))
+        bz_sq, bx_sq = fieldmodel.gap_field_rms_in_coil(unit_br, mag["recoil_permeability"],
+                                                       mag["length_m"], mag["width_m"],
+                                                       mag["thickness_m"], coil.face_gap_m, pole_pairs,
+                                                       batch.ring_radius_m, coil.coil_thickness_m,
+                                                       self.orders, n_slices=st.n_slices)
+        phi_unit = fieldmodel.flux_per_pole(unit_br, mag["recoil_permeability"], mag["length_m"],
+                                            mag["width_m"], mag["thickness_m"], coil.face_gap_m,
+                                            pole_pairs, batch.ring_radius_m, self.orders,
+                                            n_slices=st.n_slices)
+        force_unit = fieldmodel.axial_attraction_force(unit_br, mag["recoil_permeability"],
+                                                       mag["length_m"], mag["width_m"],
+                                                       mag["thickness_m"], coil.face_gap_m, pole_pairs,
+                                                       batch.ring_radius_m, self.orders,
+                                                       n_slices=st.n_slices)
+        r20 = electrical.phase_resistance(path_len, wire["bare_diameter_m"], batch.strands, paths, 20.0)
+        l_coil = electrical.coil_inductance(batch.turns, coil.hole_radial_m, coil.hole_tangential_m,
+                                            leg, coil.coil_thickness_m,
+                                            coil.face_gap_m + 2.0 * mag["thickness_m"],
+                                            n_images=st.inductance_images)
+        l_phase = electrical.phase_inductance(l_coil, series, paths)
+        active_copper_m3 = (coils * 2.0 * batch.turns * batch.strands * mag["length_m"]
+                            * np.pi * wire["bare_diameter_m"] ** 2 / 4.0)
+        ring_outer = batch.ring_radius_m + coil.hole_radial_m / 2.0 + leg
+        network = thermal.thermal_network(
+            rpm, coil.coil_inner_radius_m, ring_outer, coil.coil_outer_radius_m + STATOR_RIM_M,
+            coil.stator_thickness_m, sc.resin_skin_m, sc.resin_conductivity_W_mK,
+            sc.running_clearance_m, sc.bilge_air_C, disc_radius_m=disc["diameter_m"] / 2.0,
+            disc_thickness_m=disc["thickness_m"])
+        r_th = network.coil_to_air_K_W
+        omega = rpm * 2.0 * np.pi / 60.0
+        omega_e = omega * pole_pairs
+        f_e = omega_e / (2.0 * np.pi)
+        air = losses.air_properties(sc.bilge_air_C)
+        windage_W = losses.windage_loss(omega, disc["diameter_m"] / 2.0, sc.running_clearance_m,
+                                       air.density_kg_m3, air.viscosity_Pa_s)
+        bearing_W = losses.bearing_loss(omega, sc.bearing_drag_Nm)
+
+        # Fixed point T = T_air + R_th P(T): coil temperature -> resistance, Br -> currents -> losses.
+        # The first pass is at the hottest temperature considered: if the coils would still heat up
+        # from there, there is no steady state (runaway). Then a safeguarded iteration: each pass
+        # brackets the root (g(T) > T means it lies above T) and tries the closed-form heat balance
+        # with the currents held; when that leaves the bracket, it bisects.
+        alpha = electrical.COPPER_TEMP_COEFF_20C
+        lo, hi = np.full(n, float(sc.bilge_air_C)), np.full(n, RUNAWAY_C)
+        t_coil = hi.copy()
+        for it in range(st.thermal_iterations):
+            t_mag = thermal.magnet_temperature(t_coil, sc.bilge_air_C, network)
+            br = mag["remanence_T"] * (1.0 + mag["br_temp_coeff_per_K"] * (t_mag - 20.0))
+            resistance = r20 * (1.0 + alpha * (t_coil - 20.0))
+            scale = br * rpm
+            bridge, circ_loss = self._bridge(e_star_unit * scale[:, None, None], e_zero_unit * scale[delta, None],
+                                             resistance, l_phase, omega_e, delta)
+            copper_W = bridge.copper_loss_W + circ_loss
+            eddy_W = losses.eddy_loss_round_wire(f_e[:, None] * self.orders, (bz_sq + bx_sq) * br[:, None] ** 2,
+                                                 wire["bare_diameter_m"],
+                                                 electrical.copper_resistivity(t_coil),
+                                                 active_copper_m3)
+            t_heat = sc.bilge_air_C + r_th * (copper_W + eddy_W)
+            if it == 0:
+                runaway = t_heat > RUNAWAY_C
+            if it == st.thermal_iterations - 1:
+                break
+            above = t_heat > t_coil
+            lo, hi = np.where(above, t_coil, lo), np.where(above, hi, t_coil)
+            p20 = copper_W / (1.0 + alpha * (t_coil - 20.0))
+            t_try, _ = thermal.steady_coil_temperature(p20, alpha, eddy_W, r_th, sc.bilge_air_C)
+            inside = (t_try > lo) & (t_try < hi)
+            t_coil = np.where(runaway, RUNAWAY_C, np.where(inside, t_try, 0.5 * (lo + hi)))
+        t_used, t_coil = t_coil, np.minimum(t_heat, RUNAWAY_C)
+
+        # The delta's circulating (triplen) current is driven by the EMFs too: its loss is shaft power.
+        shaft_W = bridge.electrical_power_W + (copper_W - bridge.copper_loss_W) + eddy_W + windage_W + bearing_W
+        torque = np.where(omega > 0, shaft_W / np.where(omega > 0, omega, 1.0), sc.bearing_drag_Nm)
+        efficiency = np.where(shaft_W > 0, bridge.battery_power_W / np.where(shaft_W > 0, shaft_W, 1.0), 0.0)
+        cut_in = (sc.battery_charging_V + 2.0 * sc.diode_forward_drop_V) / (line_peak_per_rpm_per_T * br)
+        b_disc = fieldmodel.back_iron_flux_density(phi_unit * br, disc["thickness_m"], mag["length_m"])
+        magnet_cost = 2.0 * poles * mag["price_each"]
+        copper_kg = geometry.copper_mass_kg(total_wire, wire["bare_diameter_m"])
+
+        limit_coil = wire["thermal_class_C"] - sc.temperature_margin_K
+        constraints = np.column_stack([
+            fit,
+            (t_coil - limit_coil) / 100.0,
+            (t_mag - mag["max_temp_C"]) / 100.0,
+            (b_disc - sc.back_iron_saturation_T) / sc.back_iron_saturation_T,
+            (cut_in - sc.sailing_rpm) / sc.sailing_rpm,
+            np.where(winding_ok, -1.0, 1.0),
+        ])
+        values = {
+            "rpm": rpm, "coils": coils, "poles": poles, "series_coils_per_path": series,
+            "winding_factor": self.windings.winding_factor[combo],
+            "ring_radius_m": batch.ring_radius_m, "magnet_length_m": mag["length_m"],
+            "magnet_width_m": mag["width_m"], "magnet_thickness_m": mag["thickness_m"],
+            "face_gap_m": built.face_gap_m, "stator_thickness_m": built.stator_thickness_m,
+            "coil_thickness_m": built.coil_thickness_m, "coil_hole_radial_m": coil.hole_radial_m,
+            "coil_hole_tangential_m": coil.hole_tangential_m, "coil_leg_width_m": coil.leg_width_m,
+            "mean_turn_length_m": coil.mean_turn_length_m, "coil_outer_radius_m": coil.coil_outer_radius_m,
+            "coil_inner_radius_m": coil.coil_inner_radius_m,
+            "remanence_T": br, "recoil_permeability": mag["recoil_permeability"], "magnet_temperature_C": t_mag,
+            "phase_resistance_20C_ohm": r20, "phase_resistance_hot_ohm": resistance,
+            "phase_inductance_H": l_phase,
+            "emf_line_rms_per_rpm_V": line_rms_per_rpm_per_T * br,
+            "emf_line_peak_per_rpm_V": line_peak_per_rpm_per_T * br,
+            "open_circuit_line_rms_V": line_rms_per_rpm_per_T * br * rpm,
+            "open_circuit_line_peak_V": line_peak_per_rpm_per_T * br * rpm,
+            "charge_current_A": bridge.dc_current_A, "phase_current_rms_A": bridge.phase_current_rms_A,
+            "battery_power_W": bridge.battery_power_W, "dc_resistance_loss_W": bridge.dc_resistance_loss_W,
+            "copper_loss_W": copper_W, "eddy_loss_W": eddy_W, "diode_loss_W": bridge.diode_loss_W,
+            "windage_loss_W": windage_W, "bearing_loss_W": bearing_W, "shaft_power_W": shaft_W,
+            "drag_torque_Nm": torque, "efficiency": efficiency,
+            "coil_temperature_C": t_coil, "thermal_runaway": runaway,
+            "thermal_residual_K": np.abs(t_coil - t_used), "coil_limit_C": limit_coil,
+            "cut_in_rpm": cut_in, "back_iron_flux_density_T": b_disc,
+            "axial_attraction_N": force_unit * br ** 2,
+            "wire_length_m": total_wire, "copper_mass_kg": copper_kg,
+            "wire_cost": copper_kg * (1.0 + sc.wire_margin) * wire["price_per_kg"],
+            "magnet_cost": magnet_cost, "disc_cost": 2.0 * disc["price_each"],
+            "axial_length_m": 2.0 * disc["thickness_m"] + 2.0 * mag["thickness_m"] + built.face_gap_m,
+        }
+        objectives = np.column_stack([values[name] for name in OBJECTIVES])
+        return Evaluation(values, objectives, constraints, e_unit * (br * rpm)[:, None, None])
+
+    # -- pieces the pipeline switches between ------------------------------------------------------
+    def _flux_linkage(self, batch, mag, coil, leg, pole_pairs, br):
+        st = self.settings
+        geometry_args = (mag["length_m"], mag["width_m"], mag["thickness_m"], coil.face_gap_m,
+                         pole_pairs, batch.ring_radius_m, coil.hole_tangential_m, leg,
+                         coil.coil_thickness_m)
+        if st.field_model == "fast":
+            return fieldmodel.coil_flux_linkage_harmonics(br, mag["recoil_permeability"], *geometry_args,
+                                                          self.orders, n_slices=st.n_slices,
+                                                          hole_radial_m=coil.hole_radial_m)
+        if st.field_model == "reference":
+            wave = fieldmodel.reference_coil_flux_linkage(br, *geometry_args,
+                                                          hole_radial_m=coil.hole_radial_m,
+                                                          n_samples=st.n_samples)
+            # Project the reference waveform on the same odd cosine harmonics the EMF code expects.
+            theta = 2.0 * np.pi * np.arange(st.n_samples) / st.n_samples
+            basis = np.cos(self.orders[:, None] * theta[None, :])
+            return 2.0 * wave @ basis.T / st.n_samples
+        raise ValueError(f"unknown field model {st.field_model!r}: use 'fast' or 'reference'")
+
+    def _bridge(self, e_star, e_zero_delta, resistance, inductance, omega_e, delta):
+        """Rectifier fed by star (or star-equivalent) EMFs; returns the result and the loss of the
+        delta's circulating current (zero where star)."""
+        r_star = np.where(delta, resistance / 3.0, resistance)
+        l_star = np.where(delta, inductance / 3.0, inductance)
+        circ_loss = np.zeros(len(resistance))
+        if np.any(delta):
+            circ_loss[delta] = rectifier.delta_circulating_from_spectrum(
+                e_zero_delta, resistance[delta], inductance[delta], omega_e[delta])[1]
+        sc = self.scenario
+        if self.settings.inductance:
+            result = rectifier.bridge_inductive(e_star, r_star, l_star, omega_e, sc.diode_forward_drop_V,
+                                                sc.battery_charging_V, sc.battery_resistance_ohm)
+        else:
+            result = rectifier.bridge_resistive(e_star, r_star, sc.diode_forward_drop_V,
+                                                sc.battery_charging_V, sc.battery_resistance_ohm)
+        return result, circ_loss

@@ -1,0 +1,112 @@
+"""One design, fully described: the nested record behind `afpm evaluate --json` and the build sheet.
+
+Key names here are a contract with users' scripts (see the evaluate command's documentation).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..design import CONNECTIONS, DesignBatch
+from ..evaluate import ELV_LIMIT_AC_RMS_V, Evaluator
+
+OPERATING_KEYS = ("rpm", "open_circuit_line_rms_V", "open_circuit_line_peak_V", "charge_current_A",
+                  "battery_power_W", "copper_loss_W", "eddy_loss_W", "diode_loss_W",
+                  "dc_resistance_loss_W", "windage_loss_W", "bearing_loss_W", "shaft_power_W",
+                  "drag_torque_Nm", "coil_temperature_C", "magnet_temperature_C", "efficiency",
+                  "phase_current_rms_A", "thermal_runaway")
+
+
+def _f(x):
+    if isinstance(x, (bool, np.bool_)):
+        return bool(x)
+    return float(x)
+
+
+def operating_point(ev, i=0):
+    return {k: _f(ev[k][i]) for k in OPERATING_KEYS}
+
+
+def rpm_sweep(evaluator: Evaluator, design: DesignBatch, rpms):
+    """The design (a batch of one) evaluated at every speed in `rpms` [rpm], in one batch."""
+    rpms = np.asarray(rpms, dtype=float)
+    return evaluator.evaluate(design.take(np.zeros(len(rpms), dtype=int)), rpm=rpms)
+
+
+def sweep_speeds(scenario, n=13):
+    """Speeds for the rpm table: 0 to twice the sailing rpm, then up to the maximum shaft rpm."""
+    low = np.linspace(0.0, 2.0 * scenario.sailing_rpm, n)
+    high = np.linspace(2.0 * scenario.sailing_rpm, scenario.max_rpm, 5)[1:]
+    return np.unique(np.concatenate([low, high, [scenario.sailing_rpm]]))
+
+
+def design_report(evaluator: Evaluator, design: DesignBatch) -> dict:
+    """Nested, JSON-ready description of one design (a batch of one), SI units throughout."""
+    sc = evaluator.scenario
+    sail = evaluator.evaluate(design)
+    motor = evaluator.evaluate(design, rpm=sc.max_rpm)
+    w = evaluator.windings.windings[evaluator.windings.index(design.layout, design.multiple)[0]]
+    v = lambda name: _f(sail[name][0])  # noqa: E731
+    warnings = []
+    peak = _f(motor["open_circuit_line_peak_V"][0])
+    rms = _f(motor["open_circuit_line_rms_V"][0])
+    if rms > ELV_LIMIT_AC_RMS_V:
+        warnings.append(
+            f"open-circuit line voltage at {sc.max_rpm:.0f} rpm (motoring) is {rms:.0f} V rms "
+            f"({peak:.0f} V peak), above the {ELV_LIMIT_AC_RMS_V:.0f} V rms extra-low-voltage limit "
+            "(IEC 61140 / IEC 60449 band I): disconnect or brake the generator before motoring, "
+            "and insulate and enclose it as for hazardous voltage")
+    if motor["thermal_runaway"][0] or motor["coil_temperature_C"][0] > motor["coil_limit_C"][0]:
+        warnings.append(
+            f"left connected while motoring at {sc.max_rpm:.0f} rpm the coils would reach "
+            f"{_f(motor['coil_temperature_C'][0]):.0f} C (limit {_f(motor['coil_limit_C'][0]):.0f} C) "
+            f"charging {_f(motor['charge_current_A'][0]):.1f} A: disconnect it before motoring")
+    if sail["thermal_runaway"][0]:
+        warnings.append("thermal runaway at the sailing rpm: the coils find no steady temperature")
+    force = v("axial_attraction_N")
+    warnings.append(f"the two rotors pull together with about {force:.0f} N: choose bearings and "
+                    "spacers for it and assemble with jacking screws, never by hand")
+    return {
+        "design": design.records(evaluator.catalogs)[0],
+        "geometry": {k: v(k) for k in (
+            "ring_radius_m", "magnet_length_m", "magnet_width_m", "magnet_thickness_m", "face_gap_m",
+            "stator_thickness_m", "coil_thickness_m", "coil_hole_radial_m", "coil_hole_tangential_m",
+            "coil_leg_width_m", "mean_turn_length_m", "coil_inner_radius_m", "coil_outer_radius_m",
+            "axial_length_m")},
+        "magnet": {"remanence_T": v("remanence_T"), "recoil_permeability": v("recoil_permeability"),
+                   "temperature_C": v("magnet_temperature_C")},
+        "winding": {
+            "coils": int(sail["coils"][0]), "poles": int(sail["poles"][0]),
+            "coil_phase": [int(x) for x in w.coil_phase] if w else [],
+            "coil_polarity": [int(x) for x in w.coil_polarity] if w else [],
+            "series_coils_per_path": int(sail["series_coils_per_path"][0]),
+            "parallel_paths": int(design.parallel_paths[0]),
+            "connection": CONNECTIONS[int(design.connection[0])],
+            "winding_factor": v("winding_factor"),
+        },
+        "electrical": {k: v(k) for k in (
+            "phase_resistance_20C_ohm", "phase_resistance_hot_ohm", "phase_inductance_H",
+            "emf_line_rms_per_rpm_V", "emf_line_peak_per_rpm_V", "back_iron_flux_density_T",
+            "axial_attraction_N")},
+        "materials": {k: v(k) for k in ("wire_length_m", "copper_mass_kg", "wire_cost", "magnet_cost",
+                                        "disc_cost")},
+        "inputs": {"battery_charging_voltage_V": sc.battery_charging_V,
+                   "battery_resistance_ohm": sc.battery_resistance_ohm,
+                   "diode_forward_drop_V": sc.diode_forward_drop_V, "bilge_air_C": sc.bilge_air_C,
+                   "sailing_rpm": sc.sailing_rpm, "max_rpm": sc.max_rpm},
+        "at_sailing": operating_point(sail),
+        "at_max_rpm": operating_point(motor),
+        "cut_in_rpm": v("cut_in_rpm"),
+        "model": {"field_model": evaluator.settings.field_model,
+                  "inductance": evaluator.settings.inductance},
+        "feasible": bool(sail.feasible[0]),
+        "problems": sail.problems(0),
+        "warnings": warnings,
+    }
+
+
+def rpm_table(evaluator: Evaluator, design: DesignBatch, rpms=None) -> list[dict]:
+    """Rows of (rpm, charge current, torque, efficiency, coil temperature ...) for one design."""
+    rpms = sweep_speeds(evaluator.scenario) if rpms is None else rpms
+    ev = rpm_sweep(evaluator, design, rpms)
+    return [operating_point(ev, i) for i in range(len(rpms))]

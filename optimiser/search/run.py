@@ -1,0 +1,324 @@
+"""A search run folder: snapshot of the inputs, atomic checkpoints, history, front; start and resume.
+
+Layout of a run folder (names are a contract; scripts read them)::
+
+    run.json         seed, population, budget, settings, status, counters, catalog hashes
+    scenario.toml    the scenario the run uses (a copy)
+    catalogs/        a snapshot of the catalog CSVs the run uses
+    checkpoint.pkl   the whole search state after the last saved generation (atomic replace)
+    history.csv      one line per generation
+    front.csv        every feasible non-dominated design found so far
+
+The checkpoint pickles the pymoo algorithm (its problem, cache and random generator included)
+between generations, so a run resumed after Ctrl-C or kill -9 continues exactly as if it had never
+stopped. Time budgets count running time only.
+"""
+
+from __future__ import annotations
+
+import csv
+import datetime as dt
+import hashlib
+import json
+import os
+import pickle
+import shutil
+import signal
+import time
+from dataclasses import asdict, dataclass, field
+from pathlib import Path
+
+import numpy as np
+from pymoo.algorithms.moo.nsga2 import RankAndCrowding
+from pymoo.core.mixed import MixedVariableGA
+
+from ..catalogs import load_catalogs
+from ..design import DESIGN_KEYS, DesignBatch
+from ..evaluate import OBJECTIVE_SIGN, OBJECTIVES, Evaluator, Settings
+from ..scenario import load_scenario
+from .front import hypervolume, nondominated
+from .problem import SizingProblem
+from .space import SearchSpace
+
+CHECKPOINT_EVERY_S = float(os.environ.get("AFPM_CHECKPOINT_S", "5"))
+"""Seconds between checkpoints (and front/history rewrites); AFPM_CHECKPOINT_S=0 saves every generation."""
+FRONT_VALUES = ("emf_line_rms_per_rpm_V", "cut_in_rpm", "battery_power_W", "efficiency",
+                "coil_thickness_m", "face_gap_m", "copper_mass_kg", "wire_cost", "disc_cost",
+                "magnet_temperature_C", "back_iron_flux_density_T", "axial_attraction_N",
+                "open_circuit_line_peak_V")
+"""Derived values written beside the design and objectives in front.csv."""
+
+
+@dataclass
+class Budget:
+    evaluations: int | None = None
+    seconds: float | None = None
+
+    def describe(self):
+        parts = []
+        if self.evaluations:
+            parts.append(f"{self.evaluations} evaluations")
+        if self.seconds:
+            parts.append(f"{self.seconds / 60:.1f} minutes")
+        return " or ".join(parts) or "no limit"
+
+
+@dataclass
+class SearchState:
+    """Everything a resumed run needs, pickled as one object."""
+
+    algorithm: MixedVariableGA
+    archive: np.ndarray = field(default_factory=lambda: np.empty(0, np.int64))
+    history: list = field(default_factory=list)
+    elapsed_s: float = 0.0
+    hv_box: tuple | None = None
+
+    @property
+    def problem(self) -> SizingProblem:
+        return self.algorithm.problem
+
+
+def _sha256(path):
+    return hashlib.sha256(Path(path).read_bytes()).hexdigest()
+
+
+def atomic_write(path, data: bytes):
+    """Write bytes to `path` so that a crash leaves either the old or the new file, never half."""
+    path = Path(path)
+    tmp = path.with_name(path.name + ".tmp")
+    with open(tmp, "wb") as fh:
+        fh.write(data)
+        fh.flush()
+        os.fsync(fh.fileno())
+    os.replace(tmp, path)
+    dir_fd = os.open(path.parent, os.O_RDONLY)
+    try:
+        os.fsync(dir_fd)
+    finally:
+        os.close(dir_fd)
+
+
+def new_run_dir(base="runs") -> Path:
+    """runs/<date-time>, with a suffix when that name is taken: an earlier run is never reused."""
+    base = Path(base)
+    stamp = dt.datetime.now().strftime("%Y%m%d-%H%M%S")
+    candidate, n = base / stamp, 1
+    while candidate.exists():
+        n += 1
+        candidate = base / f"{stamp}-{n}"
+    return candidate
+
+
+def demo_scenario_path() -> Path:
+    return Path(__file__).resolve().parent.parent / "data" / "demo_scenario.toml"
+
+
+def create_run(run_dir, scenario_path, catalogs_dir, *, seed, population, budget: Budget,
+               settings: Settings = Settings()):
+    """Make a new run folder with its input snapshot; the inputs are checked before anything is written."""
+    run_dir = Path(run_dir)
+    catalogs_dir = Path(catalogs_dir)
+    catalogs = load_catalogs(catalogs_dir)
+    source = Path(scenario_path) if scenario_path else demo_scenario_path()
+    load_scenario(source)
+    run_dir.mkdir(parents=True, exist_ok=False)
+    shutil.copyfile(source, run_dir / "scenario.toml")
+    snap = run_dir / "catalogs"
+    snap.mkdir()
+    hashes = {}
+    for name, path in catalogs.files.items():
+        shutil.copyfile(path, snap / path.name)
+        hashes[path.name] = _sha256(path)
+    meta = {
+        "created": dt.datetime.now().isoformat(timespec="seconds"),
+        "seed": seed, "population": population, "budget": asdict(budget),
+        "settings": asdict(settings), "scenario_source": str(source.resolve()),
+        "catalog_source": str(catalogs_dir.resolve()), "catalog_hashes": hashes,
+        "status": "new", "generations": 0, "evaluations": 0, "elapsed_s": 0.0,
+    }
+    atomic_write(run_dir / "run.json", json.dumps(meta, indent=2).encode())
+    return run_dir
+
+
+class SearchRun:
+    """One run folder being searched: load or start, step generation by generation, save."""
+
+    def __init__(self, run_dir):
+        self.dir = Path(run_dir)
+        self.meta = json.loads((self.dir / "run.json").read_text())
+        self.catalogs = load_catalogs(self.dir / "catalogs")
+        self.scenario = load_scenario(self.dir / "scenario.toml")
+        self.budget = Budget(**self.meta["budget"])
+        checkpoint = self.dir / "checkpoint.pkl"
+        if checkpoint.exists():
+            with open(checkpoint, "rb") as fh:
+                self.state: SearchState = pickle.load(fh)
+        else:
+            evaluator = Evaluator(self.catalogs, self.scenario, Settings(**self.meta["settings"]))
+            space = SearchSpace(evaluator)
+            problem = SizingProblem(space, evaluator)
+            algorithm = MixedVariableGA(pop_size=self.meta["population"], survival=RankAndCrowding())
+            algorithm.setup(problem, termination=("n_gen", 10 ** 9), seed=self.meta["seed"], verbose=False)
+            self.state = SearchState(algorithm)
+        self._last_save = time.monotonic()
+
+    # -- inputs changed since the run started? ------------------------------------------------------
+    def changed_catalogs(self):
+        """Names of source catalog files that differ from the run's snapshot (the run keeps its own)."""
+        source = Path(self.meta["catalog_source"])
+        changed = []
+        for name, digest in self.meta["catalog_hashes"].items():
+            path = source / name
+            if not path.exists() or _sha256(path) != digest:
+                changed.append(name)
+        return changed
+
+    # -- budget -----------------------------------------------------------------------------------
+    @property
+    def evaluations(self):
+        return len(self.state.problem.cache)
+
+    def done(self):
+        b = self.budget
+        return bool((b.evaluations and self.evaluations >= b.evaluations)
+                    or (b.seconds and self.state.elapsed_s >= b.seconds))
+
+    def set_budget(self, budget: Budget):
+        self.budget = budget
+        self.meta["budget"] = asdict(budget)
+
+    # -- one generation -----------------------------------------------------------------------------
+    def step(self):
+        """Run one generation, update the archive and history; returns the history row."""
+        t0 = time.monotonic()
+        st = self.state
+        seen_before = self.evaluations
+        st.algorithm.next()
+        problem = st.problem
+        designs, F, G = problem.cache.view()
+        new = np.arange(seen_before, len(F))
+        feasible_new = new[np.all(G[new] <= 0, axis=1)]
+        candidates = np.concatenate([st.archive, feasible_new])
+        st.archive = candidates[nondominated(F[candidates])] if len(candidates) else candidates
+        st.archive.sort()
+        if st.hv_box is None and len(st.archive):
+            st.hv_box = self._hv_box(F[st.archive])
+        st.elapsed_s += time.monotonic() - t0
+        front_F = F[st.archive]
+        row = {
+            "generation": st.algorithm.n_gen - 1, "evaluations": self.evaluations,
+            "feasible": int(np.sum(np.all(G <= 0, axis=1))), "front_size": len(st.archive),
+            "hypervolume": hypervolume(front_F, st.hv_box) if st.hv_box else 0.0,
+            "elapsed_s": round(st.elapsed_s, 3),
+        }
+        for j, name in enumerate(OBJECTIVES):
+            row["best_" + name] = float(np.min(front_F[:, j]) * OBJECTIVE_SIGN[j]) if len(front_F) else ""
+        st.history.append(row)
+        return row
+
+    def _hv_box(self, F):
+        """Hypervolume box, frozen when the first feasible design appears (so values compare over time).
+
+        Minimisation form: ideal (-2 x best current, 0 N m, 0 cost, bilge air), reference (0 A,
+        2 x worst torque found, the dearest possible magnet bill, the hottest wire limit).
+        """
+        ev = self.state.problem.evaluator
+        poles_max = max(int(r.poles_per_unit) * int(r.max_multiple) for r in self.catalogs.layouts.itertuples())
+        bill_max = 2.0 * poles_max * float(ev.magnet["price_each"].max())
+        hot = float((ev.wire["thermal_class_C"] - self.scenario.temperature_margin_K).max())
+        ideal = np.array([2.0 * F[:, 0].min(), 0.0, 0.0, self.scenario.bilge_air_C])
+        ref = np.array([0.0, 2.0 * F[:, 1].max(), bill_max, hot])
+        return ideal, ref
+
+    # -- saving ------------------------------------------------------------------------------------
+    def save(self, status, force=False):
+        """Checkpoint (at most every few seconds unless forced), history, front and run.json."""
+        if not force and time.monotonic() - self._last_save < CHECKPOINT_EVERY_S:
+            return False
+        self._last_save = time.monotonic()
+        atomic_write(self.dir / "checkpoint.pkl", pickle.dumps(self.state, protocol=pickle.HIGHEST_PROTOCOL))
+        self._write_history()
+        self._write_front()
+        self.meta.update(status=status, generations=len(self.state.history),
+                         evaluations=self.evaluations, elapsed_s=round(self.state.elapsed_s, 3),
+                         front_size=int(len(self.state.archive)))
+        atomic_write(self.dir / "run.json", json.dumps(self.meta, indent=2).encode())
+        return True
+
+    def _write_history(self):
+        rows = self.state.history
+        if not rows:
+            return
+        atomic_write(self.dir / "history.csv", _csv_bytes(list(rows[0]), [list(r.values()) for r in rows]))
+
+    def front_designs(self):
+        """(ids, DesignBatch) of the archived front, ids stable for the run's life ('D' + cache row)."""
+        designs, _, _ = self.state.problem.cache.view()
+        rows = self.state.archive
+        return [f"D{r}" for r in rows], DesignBatch.from_matrix(designs[rows])
+
+    def _write_front(self):
+        ids, batch = self.front_designs()
+        header = ["id", *DESIGN_KEYS, *OBJECTIVES, *FRONT_VALUES]
+        lines = []
+        if len(batch):
+            ev = self.state.problem.evaluator.evaluate(batch)
+            for i, rec in enumerate(batch.records(self.catalogs)):
+                lines.append([ids[i], *[rec[k] for k in DESIGN_KEYS],
+                              *[_num(ev[name][i]) for name in OBJECTIVES],
+                              *[_num(ev[name][i]) for name in FRONT_VALUES]])
+        atomic_write(self.dir / "front.csv", _csv_bytes(header, lines))
+
+
+def _num(x):
+    return float(f"{float(x):.6g}")
+
+
+def _csv_bytes(header, rows):
+    import io
+
+    buf = io.StringIO()
+    writer = csv.writer(buf, lineterminator="\n")
+    writer.writerow(header)
+    writer.writerows(rows)
+    return buf.getvalue().encode()
+
+
+class StopFlag:
+    """Ctrl-C (SIGINT) or SIGTERM asks the loop to stop after the current generation."""
+
+    def __init__(self):
+        self.stop = False
+
+    def __enter__(self):
+        self._old = {s: signal.signal(s, self._handler) for s in (signal.SIGINT, signal.SIGTERM)}
+        return self
+
+    def _handler(self, signum, frame):
+        if self.stop:  # a second Ctrl-C: the user really means it
+            raise KeyboardInterrupt
+        self.stop = True
+
+    def __exit__(self, *exc):
+        for s, h in self._old.items():
+            signal.signal(s, h)
+        return False
+
+
+def run_search(run: SearchRun, on_generation=None, stop: StopFlag | None = None):
+    """Step `run` until its budget is spent or `stop` is raised; checkpoint as it goes.
+
+    Returns "finished" or "stopped".
+    """
+    while not run.done():
+        if stop is not None and stop.stop:
+            run.save("stopped", force=True)
+            return "stopped"
+        row = run.step()
+        t0 = time.monotonic()
+        run.save("running")
+        run.state.elapsed_s += time.monotonic() - t0  # saving is running time too
+        if on_generation is not None:
+            on_generation(row)
+    run.save("finished", force=True)
+    return "finished"

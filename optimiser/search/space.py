@@ -1,0 +1,87 @@
+"""The search space: pymoo variables for every discrete choice, and their decoding into designs.
+
+Catalog choices are categorical (pymoo `Choice` over row indices); counts are integers. The
+layout's multiple and the parallel paths have bounds that depend on the layout, which pymoo cannot
+express, so they are searched as integers over the widest range and decoded onto the nearest
+allowed value (many genotypes, one design: the evaluation cache keys on the decoded design).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from pymoo.core.variable import Choice, Integer
+
+from ..design import DesignBatch
+
+VARIABLES = ("magnet", "layout", "multiple", "ring", "disc", "wire", "strands", "turns", "paths",
+             "connection")
+
+
+class SearchSpace:
+    """Variables and decoding for one evaluator's catalogs and scenario."""
+
+    def __init__(self, evaluator):
+        sc, cat, table = evaluator.scenario, evaluator.catalogs, evaluator.windings
+        self.layout_rows = [r for r in range(len(cat.layouts)) if table.valid_multiples(r)]
+        if not self.layout_rows:
+            raise ValueError("no layout in the catalog gives a balanced three-phase winding")
+        self.multiples = {r: np.array(table.valid_multiples(r)) for r in self.layout_rows}
+        self.n_ring = int(np.floor((sc.ring_radius_max_m - sc.ring_radius_min_m) / sc.ring_radius_step_m
+                                   + 1e-9)) + 1
+        self.ring_min, self.ring_step = sc.ring_radius_min_m, sc.ring_radius_step_m
+        self.table = table
+        self.max_multiple = max(int(m.max()) for m in self.multiples.values())
+        self.max_paths = table.paths_ok.shape[1] - 1
+        self.variables = {
+            "magnet": Choice(options=list(range(len(cat.magnets)))),
+            "layout": Choice(options=self.layout_rows),
+            "multiple": Integer(bounds=(1, self.max_multiple)),
+            "ring": Integer(bounds=(0, self.n_ring - 1)),
+            "disc": Choice(options=list(range(len(cat.discs)))),
+            "wire": Choice(options=list(range(len(cat.wires)))),
+            "strands": Integer(bounds=(sc.strands_min, sc.strands_max)),
+            "turns": Integer(bounds=(sc.turns_min, sc.turns_max)),
+            "paths": Integer(bounds=(1, self.max_paths)),
+            "connection": Choice(options=[0, 1]),
+        }
+        # Nearest allowed multiple for every (layout, raw multiple), and the largest allowed number of
+        # parallel paths not above the raw value for every winding: lookup tables, no per-design loop.
+        self._multiple_lut = np.zeros((len(cat.layouts), self.max_multiple + 1), int)
+        for r, allowed in self.multiples.items():
+            raw = np.arange(self.max_multiple + 1)
+            self._multiple_lut[r] = allowed[np.argmin(np.abs(raw[:, None] - allowed[None, :]), axis=1)]
+        ok = table.paths_ok
+        idx = np.where(ok, np.arange(ok.shape[1])[None, :], 0)
+        self._paths_lut = np.maximum(np.maximum.accumulate(idx, axis=1), 1)
+
+    def decode(self, X) -> DesignBatch:
+        """Designs from pymoo's mixed-variable population: an object array of dicts."""
+        cols = {name: np.fromiter((x[name] for x in X), dtype=np.int64, count=len(X)) for name in VARIABLES}
+        return self.decode_columns(cols)
+
+    def decode_columns(self, cols) -> DesignBatch:
+        """Designs from integer columns named as VARIABLES (one entry per design)."""
+        layout = cols["layout"]
+        multiple = self._multiple_lut[layout, np.clip(cols["multiple"], 0, self.max_multiple)]
+        combo = self.table.index(layout, multiple)
+        paths = self._paths_lut[combo, np.clip(cols["paths"], 1, self.max_paths)]
+        return DesignBatch(magnet=cols["magnet"], layout=layout, multiple=multiple,
+                           ring_radius_m=self.ring_min + self.ring_step * cols["ring"],
+                           disc=cols["disc"], wire=cols["wire"], strands=cols["strands"],
+                           turns=cols["turns"], parallel_paths=paths, connection=cols["connection"])
+
+    def enumerate(self) -> DesignBatch:
+        """Every distinct design of the space (for benchmarks on small catalogs: it grows fast)."""
+        windings = [(r, k, p) for r in self.layout_rows for k in self.multiples[r]
+                    for p in np.flatnonzero(self.table.paths_ok[self.table.index(np.array([r]), np.array([k]))[0]])]
+        lists = [range(len(self.variables["magnet"].options)), range(len(windings)), range(self.n_ring),
+                 self.variables["disc"].options, self.variables["wire"].options,
+                 range(self.variables["strands"].bounds[0], self.variables["strands"].bounds[1] + 1),
+                 range(self.variables["turns"].bounds[0], self.variables["turns"].bounds[1] + 1), (0, 1)]
+        grids = np.meshgrid(*[np.asarray(list(v)) for v in lists], indexing="ij")
+        flat = [g.ravel() for g in grids]
+        w = np.array(windings)[flat[1]]
+        return DesignBatch(magnet=flat[0], layout=w[:, 0], multiple=w[:, 1],
+                           ring_radius_m=self.ring_min + self.ring_step * flat[2], disc=flat[3],
+                           wire=flat[4], strands=flat[5], turns=flat[6], parallel_paths=w[:, 2],
+                           connection=flat[7])

@@ -1,0 +1,151 @@
+"""The overnight search: decoding, cache, determinism, run folders, and resume after kill -9."""
+
+import csv
+import json
+import os
+import signal
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from optimiser.catalogs import load_catalogs
+from optimiser.cli import app
+from optimiser.evaluate import Evaluator
+from optimiser.scenario import load_scenario
+from optimiser.search.problem import SizingProblem
+from optimiser.search.run import Budget, SearchRun, create_run, run_search
+from optimiser.search.space import SearchSpace
+
+ROOT = Path(__file__).resolve().parent.parent
+CATALOGS = ROOT / "catalogs"
+
+
+@pytest.fixture(scope="module")
+def evaluator():
+    return Evaluator(load_catalogs(CATALOGS), load_scenario(None))
+
+
+def test_every_decoded_design_has_a_balanced_winding(evaluator):
+    space = SearchSpace(evaluator)
+    rng = np.random.default_rng(0)
+    n = 5000
+    cols = {name: rng.choice(var.options, n) if hasattr(var, "options") else
+            rng.integers(var.bounds[0], var.bounds[1] + 1, n) for name, var in space.variables.items()}
+    batch = space.decode_columns(cols)
+    combo = evaluator.windings.index(batch.layout, batch.multiple)
+    assert np.all(combo >= 0)
+    assert np.all(evaluator.windings.valid[combo])
+    assert np.all(evaluator.windings.paths_allowed(combo, batch.parallel_paths))
+    ev = evaluator.evaluate(batch)
+    assert np.all(ev.constraints[:, -1] < 0)  # winding_invalid never violated after decoding
+
+
+def test_cache_evaluates_each_distinct_design_once(evaluator):
+    space = SearchSpace(evaluator)
+    problem = SizingProblem(space, evaluator)
+    calls = []
+
+    def counting(matrix):
+        calls.append(len(matrix))
+        return problem.evaluate_matrix(matrix)
+
+    rng = np.random.default_rng(1)
+    cols = {name: rng.choice(var.options, 50) if hasattr(var, "options") else
+            rng.integers(var.bounds[0], var.bounds[1] + 1, 50) for name, var in space.variables.items()}
+    matrix = space.decode_columns(cols).as_matrix()
+    doubled = np.vstack([matrix, matrix[:10]])
+    rows = problem.cache.lookup(doubled, counting)
+    assert calls == [len(np.unique(matrix, axis=0))]
+    assert np.array_equal(rows[-10:], rows[:10])
+    problem.cache.lookup(matrix[5:20], counting)
+    assert len(calls) == 1  # nothing new: no evaluation at all
+    F_direct, _ = problem.evaluate_matrix(matrix[:5])
+    assert np.array_equal(problem.cache.F[rows[:5]], F_direct)
+
+
+def _run(tmp_path, name, seed, evaluations=600, population=30):
+    run_dir = create_run(tmp_path / name, None, CATALOGS, seed=seed, population=population,
+                         budget=Budget(evaluations=evaluations))
+    run = SearchRun(run_dir)
+    assert run_search(run) == "finished"
+    return run_dir
+
+
+def _front(run_dir):
+    with open(run_dir / "front.csv") as fh:
+        return list(csv.reader(fh))
+
+
+def test_same_seed_same_front_and_files(tmp_path):
+    a = _run(tmp_path, "a", seed=3)
+    b = _run(tmp_path, "b", seed=3)
+    c = _run(tmp_path, "c", seed=4)
+    assert _front(a) == _front(b)
+    assert _front(a) != _front(c)
+    front = _front(a)
+    assert len(front) > 1, "the demo search found no feasible design"
+    header = front[0]
+    for key in ("id", "magnet", "layout", "multiple", "ring_radius_mm", "turns", "charge_current_A",
+                "drag_torque_Nm", "magnet_cost", "coil_temperature_C"):
+        assert key in header
+    history = list(csv.DictReader(open(a / "history.csv")))
+    assert int(history[-1]["evaluations"]) >= 600
+    meta = json.loads((a / "run.json").read_text())
+    assert meta["status"] == "finished" and meta["seed"] == 3
+    assert (a / "catalogs" / "magnets.csv").read_bytes() == (CATALOGS / "magnets.csv").read_bytes()
+
+
+def test_an_existing_run_is_never_overwritten(tmp_path):
+    a = _run(tmp_path, "a", seed=3, evaluations=60, population=20)
+    with pytest.raises(FileExistsError):
+        create_run(a, None, CATALOGS, seed=1, population=20, budget=Budget(evaluations=60))
+
+
+def _afpm(*args, **kw):
+    env = dict(os.environ, AFPM_CHECKPOINT_S="0")
+    return subprocess.Popen([sys.executable, "-m", "optimiser", *args], cwd=ROOT, env=env,
+                            stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, **kw)
+
+
+def _generations(run_dir):
+    try:
+        return json.loads((run_dir / "run.json").read_text())["generations"]
+    except (FileNotFoundError, json.JSONDecodeError, KeyError):
+        return 0
+
+
+def test_kill_9_and_resume_gives_the_same_front(tmp_path):
+    # The run checkpoints every generation here; SIGKILL lands at an arbitrary moment (inside an
+    # evaluation, a checkpoint write...) twice, each time while the run is still going.
+    args = ["search", "--evaluations", "4000", "--population", "30", "--seed", "11"]
+    ref = _afpm(*args, "--run", str(tmp_path / "ref"))
+    assert ref.wait(timeout=300) == 0, ref.stderr.read().decode()
+    killed = tmp_path / "killed"
+    for until in (15, 60):
+        proc = _afpm(*args, "--run", str(killed))
+        deadline = time.monotonic() + 120
+        while _generations(killed) < until and time.monotonic() < deadline and proc.poll() is None:
+            time.sleep(0.01)
+        assert proc.poll() is None, "the run ended before it could be killed"
+        proc.send_signal(signal.SIGKILL)
+        proc.wait()
+        assert json.loads((killed / "run.json").read_text())["status"] == "running"
+    resumed = _afpm("search", "--run", str(killed))
+    assert resumed.wait(timeout=300) == 0, resumed.stderr.read().decode()
+    assert json.loads((killed / "run.json").read_text())["status"] == "finished"
+    assert _front(killed) == _front(tmp_path / "ref")
+    assert len(_front(killed)) > 10
+
+
+def test_cli_search_refuses_a_folder_that_is_not_a_run(tmp_path, runner):
+    target = tmp_path / "notes"
+    target.mkdir()
+    (target / "mine.txt").write_text("keep me")
+    result = runner.invoke(app, ["search", "--evaluations", "50", "--run", str(target)])
+    assert result.exit_code == 2
+    assert "never overwritten" in result.output + (result.stderr if result.stderr_bytes else "")
+    assert (target / "mine.txt").read_text() == "keep me"
