@@ -8,6 +8,7 @@ distinct designs evaluated, which is what the search's evaluation budget measure
 from __future__ import annotations
 
 import numpy as np
+from pymoo.core.duplicate import DuplicateElimination
 from pymoo.core.problem import Problem
 
 from ..evaluate import CONSTRAINTS, OBJECTIVE_SIGN, OBJECTIVES
@@ -82,3 +83,34 @@ class SizingProblem(Problem):
         rows = self.cache.lookup(matrix, self.evaluate_matrix)
         out["F"] = self.cache.F[rows]
         out["G"] = self.cache.G[rows]
+
+
+def _row_keys(matrix):
+    """One opaque, comparable key per row (a void view of the row's bytes)."""
+    matrix = np.ascontiguousarray(matrix)
+    return matrix.view(np.dtype((np.void, matrix.dtype.itemsize * matrix.shape[1]))).ravel()
+
+
+class DesignDuplicateElimination(DuplicateElimination):
+    """Duplicates by decoded design, vectorised.
+
+    pymoo's mixed-variable default compares genotype dicts pair by pair in Python (most of a
+    generation's time here) and misses different genotypes that decode to the same design.
+    """
+
+    def __init__(self, space):
+        super().__init__(func=self._designs)
+        self.space = space
+
+    def _designs(self, pop):
+        return self.space.decode(pop.get("X")).as_matrix()
+
+    def _do(self, pop, other, is_duplicate):
+        keys = _row_keys(self.func(pop))
+        if other is None:
+            _, first = np.unique(keys, return_index=True)
+            is_duplicate[:] = True
+            is_duplicate[first] = False
+        else:
+            is_duplicate |= np.isin(keys, _row_keys(self.func(other)))
+        return is_duplicate

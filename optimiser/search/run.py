@@ -30,14 +30,14 @@ from pathlib import Path
 
 import numpy as np
 from pymoo.algorithms.moo.nsga2 import RankAndCrowding
-from pymoo.core.mixed import MixedVariableGA
+from pymoo.core.mixed import MixedVariableGA, MixedVariableMating
 
 from ..catalogs import load_catalogs
 from ..design import DESIGN_KEYS, DesignBatch
 from ..evaluate import OBJECTIVE_SIGN, OBJECTIVES, Evaluator, Settings
 from ..scenario import load_scenario
 from .front import hypervolume, nondominated
-from .problem import SizingProblem
+from .problem import DesignDuplicateElimination, SizingProblem
 from .space import SearchSpace
 
 CHECKPOINT_EVERY_S = float(os.environ.get("AFPM_CHECKPOINT_S", "5"))
@@ -157,7 +157,10 @@ class SearchRun:
             evaluator = Evaluator(self.catalogs, self.scenario, Settings(**self.meta["settings"]))
             space = SearchSpace(evaluator)
             problem = SizingProblem(space, evaluator)
-            algorithm = MixedVariableGA(pop_size=self.meta["population"], survival=RankAndCrowding())
+            duplicates = DesignDuplicateElimination(space)
+            algorithm = MixedVariableGA(pop_size=self.meta["population"], survival=RankAndCrowding(),
+                                        eliminate_duplicates=duplicates,
+                                        mating=MixedVariableMating(eliminate_duplicates=duplicates))
             algorithm.setup(problem, termination=("n_gen", 10 ** 9), seed=self.meta["seed"], verbose=False)
             self.state = SearchState(algorithm)
         self._last_save = time.monotonic()
