@@ -231,7 +231,7 @@ class Evaluator:
         phi_unit = fieldmodel.flux_per_pole(unit_br, mag["recoil_permeability"], mag["length_m"],
                                             mag["width_m"], mag["thickness_m"], coil.face_gap_m,
                                             pole_pairs, batch.ring_radius_m, self.orders,
-                                            n_slices=st.n_slices)
+                                            n_slices=st.n_slices, surface="iron")
         force_unit = fieldmodel.axial_attraction_force(unit_br, mag["recoil_permeability"],
                                                        mag["length_m"], mag["width_m"],
                                                        mag["thickness_m"], coil.face_gap_m, pole_pairs,
