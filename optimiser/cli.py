@@ -218,10 +218,13 @@ def evaluate_command(
     catalogs: Path = typer.Option(Path("catalogs"), "--catalogs", help="Folder of the catalog CSVs."),
     as_json: bool = typer.Option(False, "--json", help="Print one JSON object (SI units) for programs."),
     reference: bool = typer.Option(False, "--reference", help="Use the 3-D reference field model."),
+    inductance: bool = typer.Option(False, "--inductance", help="Include the phase inductance in the "
+                                    "rectifier (commutation overlap; slower, time-domain)."),
 ):
     """Evaluate one design: geometry, winding, EMF, charge current, drag torque, temperatures."""
     sc, cat = _load_inputs(scenario, catalogs)
-    evaluator = Evaluator(cat, sc, Settings(field_model="reference" if reference else "fast"))
+    evaluator = Evaluator(cat, sc, Settings(field_model="reference" if reference else "fast",
+                                            inductance=inductance))
     batch = _checked_design(evaluator, design)
     report = design_report(evaluator, batch)
     rows = rpm_table(evaluator, batch)
