@@ -305,6 +305,91 @@ def search_command(
                             feasible=row["feasible"], front=row["front_size"], hv=f"{row['hypervolume']:.4f}")
 
         status = run_search(search, on_generation=update, stop=stop)
+    _write_front_page_after_search(search)
     typer.echo(f"{status}: {search.evaluations} designs evaluated, {len(search.state.archive)} on the front; "
                f"see {search.dir / 'front.csv'}"
                + ("" if status == "finished" else f"; resume with: afpm search --run {search.dir}"))
+
+
+# --- afpm front / afpm pick (front page and build sheets) ---------------------------------------
+def _write_front_page_after_search(search):
+    """front.html beside front.csv; a failure here must not lose the search, so it only warns."""
+    from .report.front_page import write_front_page
+
+    try:
+        path = write_front_page(search)
+        typer.echo(f"front page: {path}")
+    except Exception as exc:  # noqa: BLE001  the run is saved; the page can be redrawn with afpm front
+        typer.echo(f"warning: could not write front.html ({exc}); redraw it with: afpm front {search.dir}",
+                   err=True)
+
+
+@app.command("front")
+@input_command
+def front_command(run: Path = typer.Argument(..., help="Run folder made by afpm search.")):
+    """(Re)draw RUN/front.html: the Pareto front as an interactive page that opens offline."""
+    from .report.front_page import write_front_page
+
+    path = write_front_page(run)
+    typer.echo(f"wrote {path}; open it in a browser, click a design, then: afpm pick {run} ID")
+
+
+@app.command("pick")
+@input_command
+def pick_command(
+    run: Path = typer.Argument(..., help="Run folder made by afpm search."),
+    design_id: str = typer.Argument(None, metavar="[ID]", help="Design id from front.csv or front.html, "
+                                    "e.g. D123; omit to pick by rule."),
+    most: str = typer.Option(None, "--most", help="Pick the design with the most charge, or the least "
+                             "torque, cost or temperature: charge | torque | cost | temperature "
+                             "(default charge)."),
+    max_torque: float = typer.Option(None, "--max-torque", help="Only designs with drag torque at the "
+                                     "sailing rpm at most this [N m]."),
+    max_magnet_cost: float = typer.Option(None, "--max-magnet-cost", help="Only designs whose magnet "
+                                          "bill is at most this [scenario currency]."),
+    max_coil_temp: float = typer.Option(None, "--max-coil-temp", help="Only designs whose coils stay at "
+                                        "or below this at the sailing rpm [C]."),
+    min_charge: float = typer.Option(None, "--min-charge", help="Only designs charging at least this at "
+                                     "the sailing rpm [A]."),
+):
+    """Pick a front design (by ID or by rule), print its summary and write its build sheet
+    (build-ID.html for printing, build-ID.md) into the run folder."""
+    from .report.build_sheet import NoMatch, pick, write_build_sheet
+    from .report.front_page import open_run
+
+    search = open_run(run)
+    if design_id is not None and any(x is not None for x in (most, max_torque, max_magnet_cost,
+                                                             max_coil_temp, min_charge)):
+        raise typer.BadParameter("give an ID or a rule (--most and limits), not both")
+    try:
+        _, chosen = pick(search, design_id, most, max_torque, max_magnet_cost, max_coil_temp, min_charge)
+    except NoMatch as exc:
+        typer.echo(f"no match: {exc}", err=True)
+        raise typer.Exit(EXIT_INPUT)
+    html_path, md_path, sheet = write_build_sheet(search, chosen)
+    console = Console()
+    for line in sheet.lines:
+        console.print(line, markup=False, highlight=False)
+    for sec in sheet.sections:
+        if sec.title in ("Parts list", "Re-checked with the 3-D reference field model"):
+            t = sec.blocks[0][1]
+            cols = [0, 2, 3, 4] if sec.title == "Parts list" else list(range(len(t.header)))
+            table = Table(title=sec.title)
+            for j in cols:
+                table.add_column(t.header[j], justify="right" if t.align[j] == "r" else "left", overflow="fold")
+            for row in t.rows + ([t.foot] if t.foot else []):
+                table.add_row(*[rich_escape(str(row[j])) for j in cols])
+            console.print(table)
+        if sec.title == "Warnings for this design":
+            for w in sec.blocks[0][1]:
+                console.print("warning: " + w, markup=False, highlight=False)
+    typer.echo(f"build sheet: {html_path} (print it) and {md_path}")
+    typer.echo("Cautions: guard the shaft; handle magnets with care; charge through a regulator with a "
+               "fuse near the battery; disconnect before motoring; follow local codes, marine electrical "
+               "standards and a qualified marine electrician.")
+
+
+def rich_escape(text: str) -> str:
+    from rich.markup import escape
+
+    return escape(text)
