@@ -434,7 +434,8 @@ def _md_table(t: Table) -> list[str]:
 
 
 def sheet_markdown(sheet: Sheet, svg_files: dict | None = None) -> str:
-    """The same sheet as Markdown; drawings are linked SVG files (`svg_files`: name -> file name)."""
+    """The same sheet as Markdown; drawings and the design file are linked files (`svg_files`:
+    drawing name or "design" -> file name)."""
     out = [f"# {md_escape(sheet.title)}", ""]
     out += [md_escape(x) + "  " for x in sheet.lines] + [""]
     for sec in sheet.sections:
@@ -451,12 +452,16 @@ def sheet_markdown(sheet: Sheet, svg_files: dict | None = None) -> str:
                 name = (svg_files or {}).get(block[1])
                 out += [f"![{block[1]} drawing]({name})" if name else f"(drawing: see the HTML sheet)", ""]
             elif kind == "code":
-                out += ["```toml", block[1].rstrip("\n"), "```", ""]
+                # A code block would show catalog text raw; link the file, or escape it line by line.
+                name = (svg_files or {}).get("design")
+                out += ([f"Design file: [{name}]({name})", ""] if name else
+                        [md_escape(x) + "  " for x in block[1].splitlines()] + [""])
     return "\n".join(out)
 
 
 def write_build_sheet(run, design_id) -> tuple[Path, Path, Sheet]:
-    """Write build-<ID>.html, build-<ID>.md and its drawings (build-<ID>-*.svg) into the run folder."""
+    """Write build-<ID>.html, build-<ID>.md, its drawings (build-<ID>-*.svg) and its design file
+    (build-<ID>.toml) into the run folder."""
     if isinstance(run, (str, Path)):
         run = open_run(run)
     sheet = build_sheet(run, design_id)
@@ -467,6 +472,12 @@ def write_build_sheet(run, design_id) -> tuple[Path, Path, Sheet]:
                 name = f"build-{design_id}-{block[1]}.svg"
                 atomic_write(run.dir / name, (block[2] + "\n").encode("utf-8"))
                 svg_files[block[1]] = name
+    design_file = f"build-{design_id}.toml"
+    for sec in sheet.sections:
+        for block in sec.blocks:
+            if block[0] == "code":
+                atomic_write(run.dir / design_file, block[1].encode("utf-8"))
+                svg_files["design"] = design_file
     html_path = run.dir / f"build-{design_id}.html"
     md_path = run.dir / f"build-{design_id}.md"
     atomic_write(html_path, sheet_html(sheet).encode("utf-8"))
