@@ -147,7 +147,8 @@ def page_data(evaluator, ids, batch, run_dir, reports=None, sail=None) -> dict:
                     f"{r['at_sailing']['drag_torque_Nm']:.2f} N m, {r['materials']['magnet_cost']:.0f} {cur}, "
                     f"{r['at_sailing']['coil_temperature_C']:.0f} C | {r['design']['magnet']}, "
                     f"{r['winding']['coils']} coils / {r['winding']['poles']} poles, "
-                    f"{r['design']['turns']} turns x {r['design']['strands']} of {r['design']['wire']}")
+                    f"{r['design']['turns']} turns x {r['design']['strands']} of {r['design']['wire']}",
+                    quote=False)  # plotly decodes &lt; &gt; &amp; in labels but shows &quot; raw
              for i, r in enumerate(reports)]
     run_arg = shlex.quote(str(Path(run_dir)))
     return {
