@@ -110,3 +110,6 @@ def test_markup_in_catalog_ids_shows_as_text(browser, tmp_path):
     assert PAYLOAD in text  # the literal characters, as text
     assert browser.execute_script("return document.querySelectorAll('#panel script, #panel b').length") == 0
     assert browser.execute_script("return document.scripts.length") == 3
+    browser.execute_script("Plotly.Fx.hover('scatter', [{curveNumber: 0, pointNumber: 0}]);")
+    hover = browser.execute_script("var e = document.querySelector('.hoverlayer'); return e && e.textContent")
+    assert PAYLOAD in hover
