@@ -10,7 +10,6 @@ import functools
 import json
 from pathlib import Path
 
-import numpy as np
 import typer
 from rich.console import Console
 from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn, TimeRemainingColumn
@@ -144,23 +143,6 @@ def _load_inputs(scenario_file, catalogs_dir):
     return load_scenario(scenario_file), load_catalogs(catalogs_dir)
 
 
-def _checked_design(evaluator, design_file):
-    """A design file read against the catalogs, with its parallel paths checked against the winding."""
-    batch = load_design(design_file, evaluator.catalogs)
-    table = evaluator.windings
-    combo = int(table.index(batch.layout, batch.multiple)[0])
-    if not table.valid[combo]:
-        raise InputError([Problem(str(design_file), None, "layout",
-                                  f"no balanced three-phase winding: {table.reasons[combo]}",
-                                  "line", "key")])
-    if not table.paths_allowed(np.array([combo]), batch.parallel_paths)[0]:
-        allowed = table.windings[combo].allowed_parallel_paths
-        raise InputError([Problem(str(design_file), None, "parallel_paths",
-                                  f"this winding allows {', '.join(map(str, allowed))} parallel "
-                                  f"paths (got {int(batch.parallel_paths[0])})", "line", "key")])
-    return batch
-
-
 def _print_report(report, rows):
     console = Console()
     d = report["design"]
@@ -225,7 +207,7 @@ def evaluate_command(
     sc, cat = _load_inputs(scenario, catalogs)
     evaluator = Evaluator(cat, sc, Settings(field_model="reference" if reference else "fast",
                                             inductance=inductance))
-    batch = _checked_design(evaluator, design)
+    batch = load_design(design, cat, evaluator.windings.problem)
     report = design_report(evaluator, batch)
     rows = rpm_table(evaluator, batch)
     report["rpm_table"] = rows

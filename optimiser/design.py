@@ -102,10 +102,12 @@ def _key_lines(text: str) -> dict[str, int]:
     return found
 
 
-def load_design(path, catalogs) -> DesignBatch:
+def load_design(path, catalogs, winding_problem=None) -> DesignBatch:
     """Read a design file (TOML with exactly DESIGN_KEYS) into a batch of one, checking everything.
 
-    Raises InputError listing every problem at once (file, line, key, what is wrong, what is allowed).
+    `winding_problem(layout_row, multiple, parallel_paths)` may return (key, message) when the
+    winding cannot be built (the evaluator's `WindingTable.problem`). Raises InputError listing
+    every problem at once (file, line, key, what is wrong, what is allowed).
     """
     path = Path(path)
     name = str(path)
@@ -173,6 +175,10 @@ def load_design(path, catalogs) -> DesignBatch:
     connection = data.get("connection")
     if connection is not None and connection not in CONNECTIONS:
         bad("connection", f"must be \"star\" or \"delta\" (got {connection!r})")
+    if winding_problem is not None and None not in (multiple, paths) and "layout" in index:
+        found = winding_problem(index["layout"], multiple, paths)
+        if found:
+            bad(*found)
     if problems:
         raise InputError(problems)
     return DesignBatch(magnet=index["magnet"], layout=index["layout"], multiple=multiple,

@@ -13,7 +13,6 @@ The search sees only `Evaluator.evaluate` and the names below; it never imports 
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from math import gcd
 
 import numpy as np
 
@@ -128,6 +127,18 @@ class WindingTable:
         lo, hi = self.min_multiple[layout_row], self.max_multiple[layout_row]
         return [k for k in range(lo, hi + 1) if self.valid[self.offset[layout_row] + k - lo]]
 
+    def problem(self, layout_row, multiple, paths):
+        """(key, message) saying why one design's winding is not buildable, or None."""
+        combo = int(self.index(np.array([layout_row]), np.array([multiple]))[0])
+        if combo < 0:
+            return None  # the multiple's own range check reports it
+        if not self.valid[combo]:
+            return "layout", f"no balanced three-phase winding: {self.reasons[combo]}"
+        if not self.paths_allowed(np.array([combo]), np.array([paths]))[0]:
+            allowed = ", ".join(map(str, self.windings[combo].allowed_parallel_paths))
+            return "parallel_paths", f"this winding allows {allowed} parallel paths (got {paths})"
+        return None
+
     def paths_allowed(self, combo, paths):
         paths = np.asarray(paths)
         inside = (combo >= 0) & (paths >= 1) & (paths < self.paths_ok.shape[1])
@@ -220,7 +231,10 @@ class Evaluator:
             # shifted by thirds of a period, so the first sixth holds every conduction pattern and
             # its means are the period's (see rectifier.bridge_resistive): keep only that sixth.
             e_star_unit = np.ascontiguousarray(e_star_unit[..., : st.n_samples // 6])
-        line_unit = np.where(delta[:, None, None], e_unit, emf.line_line(e_unit))
+        # A delta's terminals carry each branch EMF less the zero-sequence part, which only
+        # drives the circulating current round the delta.
+        line_unit = np.where(delta[:, None, None], e_unit - e_unit.mean(axis=1, keepdims=True),
+                             emf.line_line(e_unit))
         line_peak_per_rpm_per_T = np.max(np.abs(line_unit), axis=(1, 2))
         line_rms_per_rpm_per_T = np.sqrt(np.mean(line_unit ** 2, axis=(1, 2)))
         bz_sq, bx_sq = fieldmodel.gap_field_rms_in_coil(unit_br, mag["recoil_permeability"],
@@ -260,13 +274,16 @@ class Evaluator:
                                        air.density_kg_m3, air.viscosity_Pa_s)
         bearing_W = losses.bearing_loss(omega, sc.bearing_drag_Nm)
 
-        # Fixed point T = T_air + R_th P(T): coil temperature -> resistance, Br -> currents -> losses.
-        # The first pass is at the hottest temperature considered: if the coils would still heat up
-        # from there, there is no steady state (runaway). Then a safeguarded iteration: each pass
-        # brackets the root (g(T) > T means it lies above T) and tries the closed-form heat balance
-        # with the currents held; when that leaves the bracket, it bisects.
+        # Fixed point T = g(T) = T_air + R_th P(T): coil temperature -> resistance and Br ->
+        # currents -> losses. The first pass is at the hottest temperature considered: if the
+        # coils would still heat up from there, there is no steady state (runaway). The second
+        # tries the closed-form heat balance with the currents of the first held; from then on
+        # the root is bracketed (g(T) > T: it lies above T) and found by the Illinois variant of
+        # regula falsi, bisecting whenever a step would leave the bracket.
         alpha = electrical.COPPER_TEMP_COEFF_20C
         lo, hi = np.full(n, float(sc.bilge_air_C)), np.full(n, RUNAWAY_C)
+        h_lo, h_hi = np.full(n, np.nan), np.zeros(n)
+        side = np.zeros(n)
         t_coil = hi.copy()
         for it in range(st.thermal_iterations):
             t_mag = thermal.magnet_temperature(t_coil, sc.bilge_air_C, network)
@@ -285,12 +302,20 @@ class Evaluator:
                 runaway = t_heat > RUNAWAY_C
             if it == st.thermal_iterations - 1:
                 break
-            above = t_heat > t_coil
-            lo, hi = np.where(above, t_coil, lo), np.where(above, hi, t_coil)
+            h = t_heat - t_coil
+            up = h > 0
+            h_hi = np.where(up & (side > 0), 0.5 * h_hi, h_hi)  # Illinois: same end moved twice
+            h_lo = np.where(~up & (side < 0), 0.5 * h_lo, h_lo)
+            lo, h_lo = np.where(up, t_coil, lo), np.where(up, h, h_lo)
+            hi, h_hi = np.where(up, hi, t_coil), np.where(up, h_hi, h)
+            side = np.where(up, 1.0, -1.0)
             p20 = copper_W / (1.0 + alpha * (t_coil - 20.0))
             t_try, _ = thermal.steady_coil_temperature(p20, alpha, eddy_W, r_th, sc.bilge_air_C)
-            inside = (t_try > lo) & (t_try < hi)
-            t_coil = np.where(runaway, RUNAWAY_C, np.where(inside, t_try, 0.5 * (lo + hi)))
+            with np.errstate(invalid="ignore", divide="ignore"):
+                secant = (lo * h_hi - hi * h_lo) / (h_hi - h_lo)
+            t_next = np.where(np.isnan(h_lo), t_try, secant)
+            inside = (t_next > lo) & (t_next < hi)
+            t_coil = np.where(runaway, RUNAWAY_C, np.where(inside, t_next, 0.5 * (lo + hi)))
         t_used, t_coil = t_coil, np.minimum(t_heat, RUNAWAY_C)
 
         # The delta's circulating (triplen) current is driven by the EMFs too: its loss is shaft power.

@@ -211,10 +211,6 @@ def test_parallel_paths_the_winding_does_not_allow(runner, demo_catalogs_dir, tm
     assert f"allows {', '.join(map(str, allowed))} parallel paths (got {paths})" in lines[0]
 
 
-@pytest.mark.xfail(strict=True, reason="cli._checked_design checks parallel paths only after "
-                   "load_design succeeded and without the line number: a file with a bad "
-                   "parallel_paths and another mistake reports one problem per run, and the "
-                   "parallel_paths line is not named")
 def test_parallel_paths_problem_comes_with_its_line_and_with_the_other_problems(
         runner, demo_catalogs_dir, tmp_path, feasible_record):
     paths, _ = _disallowed_paths(feasible_record)

@@ -274,9 +274,6 @@ def test_no_charge_below_cut_in_and_charge_above_it_star(evaluator, scenario):
     assert np.all(i_hi[above] > 0.0)
 
 
-@pytest.mark.xfail(strict=True, reason="evaluate.py reports a delta's line EMF (and so its cut-in) "
-                   "from the branch EMF including the zero-sequence (triplen) part, which never "
-                   "reaches the terminals; the bridge sees the star equivalent without it")
 def test_no_charge_below_cut_in_and_charge_above_it_delta(evaluator, scenario):
     # Delta: the terminals carry e_xy - e0 (e0 = zero-sequence part, which only drives the
     # circulating current; Fortescue 1918, see rectifier.delta_to_star), so the bridge threshold
@@ -333,9 +330,6 @@ def test_delta_fundamental_line_emf_is_star_line_emf_over_sqrt3(evaluator):
     np.testing.assert_allclose(delta_line * np.sqrt(3.0), star_line, rtol=1e-9)
 
 
-@pytest.mark.xfail(strict=True, reason="evaluate.py computes a delta's line EMF from the branch "
-                   "EMF e_xy instead of e_xy - e0: triplen harmonics inflate emf_line_rms_per_rpm_V, "
-                   "open_circuit_line_*_V and shift cut_in_rpm of delta designs")
 def test_delta_terminal_line_emf_rms_is_star_line_rms_over_sqrt3(evaluator):
     # Delta terminals carry no zero-sequence (triplen) voltage (Fortescue 1918; rectifier.
     # delta_to_star), and every non-triplen harmonic n has |1 - exp(-j n 2 pi/3)| = sqrt(3). So
@@ -437,10 +431,6 @@ def test_thermal_residual_bounds_the_distance_to_the_true_fixed_point(evaluator,
     assert np.all(dist <= ev["thermal_residual_K"][ok] + 1e-6)
 
 
-@pytest.mark.xfail(strict=True, reason="evaluate.py's safeguarded fixed point stagnates: the "
-                   "currents-held closed-form step lands just inside the bracket every pass, so "
-                   "for designs whose loss falls steeply with temperature it alternates between "
-                   "two temperatures ~100 K apart and never bisects")
 def test_coil_temperature_is_within_2_K_of_the_true_fixed_point(evaluator, thermal_sample, monkeypatch):
     # Plain bisection over [air, 400 C] reaches 365 K / 2^8 = 1.4 K in the default 8 passes; a
     # safeguarded iteration must do at least as well on every settled (non-runaway) design.

@@ -450,7 +450,7 @@ def sheet_markdown(sheet: Sheet, svg_files: dict | None = None) -> str:
                 out += ([f"- {md_escape(x)}" for x in block[1]] or ["None."]) + [""]
             elif kind == "svg":
                 name = (svg_files or {}).get(block[1])
-                out += [f"![{block[1]} drawing]({name})" if name else f"(drawing: see the HTML sheet)", ""]
+                out += [f"![{block[1]} drawing]({name})" if name else "(drawing: see the HTML sheet)", ""]
             elif kind == "code":
                 # A code block would show catalog text raw; link the file, or escape it line by line.
                 name = (svg_files or {}).get("design")
