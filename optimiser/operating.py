@@ -139,7 +139,7 @@ def free_wheel_rpm(propeller_torque: TorqueFunction, drag_torque_Nm=0.0, rpm_min
         drag (and the friction inside ``propeller_torque``).
     """
     drag = np.asarray(drag_torque_Nm, dtype=float)
-    return operating_point(lambda rpm: np.broadcast_to(drag, np.shape(rpm)), propeller_torque,
+    return operating_point(lambda rpm: drag + np.zeros(np.shape(rpm)), propeller_torque,
                            rpm_min, rpm_max, n_scan, n_refine)
 
 
