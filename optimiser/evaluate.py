@@ -381,6 +381,12 @@ class Evaluator:
                                                           self.orders, n_slices=st.n_slices,
                                                           hole_radial_m=coil.hole_radial_m)
         if st.field_model == "reference":
+            # The cuboid reference treats the magnets as rigid (mu_r = 1). Their recoil
+            # permeability lowers the working point; scale Br by the magnetic-circuit ratio
+            # (h + g/2) / (h + mu_r g/2) so both models describe the same magnets (the fast
+            # model's own mu_r effect is within about 1 % of this ratio, tests/test_evaluate.py).
+            h, g = mag["thickness_m"], coil.face_gap_m
+            br = br * (h + g / 2.0) / (h + mag["recoil_permeability"] * g / 2.0)
             wave = fieldmodel.reference_coil_flux_linkage(br, *geometry_args,
                                                           hole_radial_m=coil.hole_radial_m,
                                                           n_samples=st.n_samples)
