@@ -3,6 +3,13 @@
 pymoo's duplicate elimination only looks inside the current population, so a GA revisits good
 designs again and again; the cache answers those without running the physics, and it counts the
 distinct designs evaluated, which is what the search's evaluation budget measures.
+
+A population's new designs are cut into chunks of a size fixed when the run starts and each chunk
+is one call of `evaluate_designs`, a pure function of the chunk. The chunks go to the problem's
+`mapper` (serial when None; a process pool or a Dask cluster, see `parallel.py`) and come back in
+chunk order, so the same run gives bit-identical results however (and wherever) it is evaluated.
+The chunking itself must not depend on the mapper: the reference field model's results differ in
+the last bit between a batch of one and a larger batch, so only equal chunks guarantee equal fronts.
 """
 
 from __future__ import annotations
@@ -11,7 +18,32 @@ import numpy as np
 from pymoo.core.duplicate import DuplicateElimination
 from pymoo.core.problem import Problem
 
+from ..design import DesignBatch
 from ..evaluate import CONSTRAINTS, OBJECTIVE_SIGN, OBJECTIVES
+
+FRONT_VALUES = ("emf_line_rms_per_rpm_V", "cut_in_rpm", "battery_power_W", "efficiency",
+                "coil_thickness_m", "face_gap_m", "copper_mass_kg", "wire_cost", "disc_cost",
+                "magnet_temperature_C", "back_iron_flux_density_T", "axial_attraction_N",
+                "open_circuit_line_peak_V")
+"""Derived values written beside the design and objectives in front.csv (kept for feasible designs,
+so writing the front never re-runs the physics: with the reference model that would take minutes)."""
+
+
+def evaluate_designs(evaluator, matrix):
+    """(F minimisation form, G, V front values) of designs given as DesignBatch matrix rows.
+
+    A pure function of (evaluator, matrix): what every worker runs on its chunks.
+    """
+    ev = evaluator.evaluate(DesignBatch.from_matrix(matrix))
+    V = np.column_stack([np.asarray(ev[name], float) for name in FRONT_VALUES])
+    return ev.objectives * OBJECTIVE_SIGN, ev.constraints, V
+
+
+def split_chunks(matrix, chunk):
+    """Consecutive chunks of at most `chunk` rows (0: one chunk)."""
+    if chunk <= 0 or len(matrix) <= chunk:
+        return [matrix]
+    return [matrix[i:i + chunk] for i in range(0, len(matrix), chunk)]
 
 
 class DesignCache:
@@ -22,6 +54,7 @@ class DesignCache:
         self.designs = np.empty((0, n_var))
         self.F = np.empty((0, len(OBJECTIVES)))   # minimisation form
         self.G = np.empty((0, len(CONSTRAINTS)))
+        self.values = {}  # cache row -> FRONT_VALUES, for feasible designs (pruned to the front by the run)
         self._n = 0
 
     def __len__(self):
@@ -47,7 +80,8 @@ class DesignCache:
             for i in missing:
                 first.setdefault(keys[i], i)
             new = np.fromiter(first.values(), dtype=np.int64, count=len(first))
-            F, G = evaluate(matrix[new])
+            result = evaluate(matrix[new])
+            F, G = result[0], result[1]
             self._grow(len(new))
             start = self._n
             self.designs[start:start + len(new)] = matrix[new]
@@ -55,6 +89,10 @@ class DesignCache:
             self.G[start:start + len(new)] = G
             for j, i in enumerate(new):
                 self.index[keys[i]] = start + j
+            if len(result) > 2:
+                ok = np.all(G <= 0, axis=1)
+                for j in np.flatnonzero(ok):
+                    self.values[start + int(j)] = result[2][j]
             self._n += len(new)
             rows = np.fromiter((self.index[k] for k in keys), dtype=np.int64, count=len(keys))
         return rows
@@ -62,25 +100,55 @@ class DesignCache:
     def view(self):
         return self.designs[: self._n], self.F[: self._n], self.G[: self._n]
 
+    def keep_values(self, rows):
+        """Forget the front values of every row not in `rows` (designs that left the front)."""
+        values = getattr(self, "values", {})
+        self.values = {int(r): values[int(r)] for r in rows if int(r) in values}
+
+    def __setstate__(self, state):
+        state.setdefault("values", {})  # checkpoints from before the values were kept
+        self.__dict__.update(state)
+
 
 class SizingProblem(Problem):
     """Four objectives (charge current maximised; torque, magnet bill, coil temperature minimised)."""
 
-    def __init__(self, space, evaluator):
+    def __init__(self, space, evaluator, chunk=0):
         super().__init__(vars=space.variables, n_obj=len(OBJECTIVES), n_ieq_constr=len(CONSTRAINTS))
         self.space, self.evaluator = space, evaluator
         self.cache = DesignCache(n_var=10)
+        self.chunk = int(chunk)  # designs per chunk, fixed for the run's life (0: whole population)
+        self.mapper = None       # where chunks are evaluated; never pickled (see __getstate__)
+
+    def __getstate__(self):
+        # A pool or a Dask client cannot (and must not) go into the checkpoint: the resumed run
+        # attaches its own, possibly a different kind, and gets the same results.
+        state = dict(super().__getstate__())
+        state["mapper"] = None
+        return state
+
+    def __setstate__(self, state):
+        state.setdefault("chunk", 0)  # checkpoints from before chunking evaluated whole populations
+        state["mapper"] = None
+        self.__dict__.update(state)
 
     def evaluate_matrix(self, matrix):
-        """F (minimisation form) and G of designs given as DesignBatch matrices."""
-        from ..design import DesignBatch
+        """F (minimisation form) and G of designs given as DesignBatch matrices (in this process)."""
+        F, G, _ = evaluate_designs(self.evaluator, matrix)
+        return F, G
 
-        ev = self.evaluator.evaluate(DesignBatch.from_matrix(matrix))
-        return ev.objectives * OBJECTIVE_SIGN, ev.constraints
+    def evaluate_new(self, matrix):
+        """(F, G, V) of designs not seen before: chunked, mapped, joined back in chunk order."""
+        chunks = split_chunks(matrix, self.chunk)
+        if self.mapper is None:
+            results = [evaluate_designs(self.evaluator, c) for c in chunks]
+        else:
+            results = self.mapper.map(chunks)
+        return tuple(np.concatenate([r[k] for r in results]) for k in range(3))
 
     def _evaluate(self, X, out, *args, **kwargs):
         matrix = self.space.decode(X).as_matrix()
-        rows = self.cache.lookup(matrix, self.evaluate_matrix)
+        rows = self.cache.lookup(matrix, self.evaluate_new)
         out["F"] = self.cache.F[rows]
         out["G"] = self.cache.G[rows]
 

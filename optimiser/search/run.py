@@ -12,6 +12,11 @@ Layout of a run folder (names are a contract; scripts read them)::
 The checkpoint pickles the pymoo algorithm (its problem, cache and random generator included)
 between generations, so a run resumed after Ctrl-C or kill -9 continues exactly as if it had never
 stopped. Time budgets count running time only.
+
+Each population's new designs are evaluated in chunks of `run.json`'s `chunk` designs (fixed when
+the run starts, whatever evaluates them): `SearchRun.attach(mapper)` sends them to a process pool or
+a Dask cluster (`parallel.py`). The mapper lives outside the checkpoint; a resumed run attaches its
+own.
 """
 
 from __future__ import annotations
@@ -37,16 +42,16 @@ from ..design import DESIGN_KEYS, DesignBatch
 from ..evaluate import OBJECTIVE_SIGN, OBJECTIVES, Evaluator, Settings
 from ..scenario import load_scenario
 from .front import hypervolume, nondominated
-from .problem import DesignDuplicateElimination, SizingProblem
+from .problem import FRONT_VALUES, DesignDuplicateElimination, SizingProblem, evaluate_designs
 from .space import SearchSpace
 
 CHECKPOINT_EVERY_S = float(os.environ.get("AFPM_CHECKPOINT_S", "5"))
 """Seconds between checkpoints (and front/history rewrites); AFPM_CHECKPOINT_S=0 saves every generation."""
-FRONT_VALUES = ("emf_line_rms_per_rpm_V", "cut_in_rpm", "battery_power_W", "efficiency",
-                "coil_thickness_m", "face_gap_m", "copper_mass_kg", "wire_cost", "disc_cost",
-                "magnet_temperature_C", "back_iron_flux_density_T", "axial_attraction_N",
-                "open_circuit_line_peak_V")
-"""Derived values written beside the design and objectives in front.csv."""
+DEFAULT_CHUNK = {"fast": 256, "reference": 4}
+"""Designs per chunk by field model. The fast model costs ~5 ms per call plus ~35 us per design,
+so smaller chunks mostly add call overhead (one chunk per population of 100: a pool only helps
+populations of many hundreds); a reference design costs ~0.3-0.9 s, so small chunks balance the
+workers at no measurable cost (tests/benchmarks/bench_parallel.py)."""
 
 
 @dataclass
@@ -114,8 +119,12 @@ def demo_scenario_path() -> Path:
 
 
 def create_run(run_dir, scenario_path, catalogs_dir, *, seed, population, budget: Budget,
-               settings: Settings = Settings()):
-    """Make a new run folder with its input snapshot; the inputs are checked before anything is written."""
+               settings: Settings = Settings(), chunk: int | None = None):
+    """Make a new run folder with its input snapshot; the inputs are checked before anything is written.
+
+    `chunk` (designs per evaluation chunk) defaults by field model (DEFAULT_CHUNK); it is part of
+    the run, like the seed, because it must not change for the run's results to repeat.
+    """
     run_dir = Path(run_dir)
     catalogs_dir = Path(catalogs_dir)
     catalogs = load_catalogs(catalogs_dir)
@@ -132,7 +141,9 @@ def create_run(run_dir, scenario_path, catalogs_dir, *, seed, population, budget
     meta = {
         "created": dt.datetime.now().isoformat(timespec="seconds"),
         "seed": seed, "population": population, "budget": asdict(budget),
-        "settings": asdict(settings), "scenario_source": str(source.resolve()),
+        "settings": asdict(settings),
+        "chunk": int(chunk if chunk is not None else DEFAULT_CHUNK.get(settings.field_model, 0)),
+        "scenario_source": str(source.resolve()),
         "catalog_source": str(catalogs_dir.resolve()), "catalog_hashes": hashes,
         "status": "new", "generations": 0, "evaluations": 0, "elapsed_s": 0.0,
     }
@@ -156,7 +167,7 @@ class SearchRun:
         else:
             evaluator = Evaluator(self.catalogs, self.scenario, Settings(**self.meta["settings"]))
             space = SearchSpace(evaluator)
-            problem = SizingProblem(space, evaluator)
+            problem = SizingProblem(space, evaluator, chunk=self.meta.get("chunk", 0))
             duplicates = DesignDuplicateElimination(space)
             algorithm = MixedVariableGA(pop_size=self.meta["population"], survival=RankAndCrowding(),
                                         eliminate_duplicates=duplicates,
@@ -164,6 +175,15 @@ class SearchRun:
             algorithm.setup(problem, termination=("n_gen", 10 ** 9), seed=self.meta["seed"], verbose=False)
             self.state = SearchState(algorithm)
         self._last_save = time.monotonic()
+
+    @property
+    def model(self):
+        """The field model every design of this run is evaluated with ("fast" or "reference")."""
+        return self.state.problem.evaluator.settings.field_model
+
+    def attach(self, mapper):
+        """Evaluate new designs with `mapper` from now on (None: serial in this process)."""
+        self.state.problem.mapper = mapper
 
     # -- inputs changed since the run started? ------------------------------------------------------
     def changed_catalogs(self):
@@ -204,6 +224,7 @@ class SearchRun:
         candidates = np.concatenate([st.archive, feasible_new])
         st.archive = candidates[nondominated(F[candidates])] if len(candidates) else candidates
         st.archive.sort()
+        problem.cache.keep_values(st.archive)
         if st.hv_box is None and len(st.archive):
             st.hv_box = self._hv_box(F[st.archive])
         st.elapsed_s += time.monotonic() - t0
@@ -260,16 +281,30 @@ class SearchRun:
         rows = self.state.archive
         return [f"D{r}" for r in rows], DesignBatch.from_matrix(designs[rows])
 
+    def _front_values(self):
+        """(objectives in natural sense, FRONT_VALUES) of the archive, from the cache.
+
+        Rows without kept values (a checkpoint from before they were kept) are evaluated here.
+        """
+        problem = self.state.problem
+        cache, rows = problem.cache, self.state.archive
+        objectives = cache.F[rows] * OBJECTIVE_SIGN
+        missing = [r for r in rows if int(r) not in cache.values]
+        if missing:
+            _, _, V = evaluate_designs(problem.evaluator, cache.designs[np.array(missing)])
+            cache.values.update({int(r): V[j] for j, r in enumerate(missing)})
+        values = np.array([cache.values[int(r)] for r in rows]).reshape(len(rows), len(FRONT_VALUES))
+        return objectives, values
+
     def _write_front(self):
         ids, batch = self.front_designs()
-        header = ["id", *DESIGN_KEYS, *OBJECTIVES, *FRONT_VALUES]
+        header = ["id", *DESIGN_KEYS, *OBJECTIVES, *FRONT_VALUES, "model"]
         lines = []
         if len(batch):
-            ev = self.state.problem.evaluator.evaluate(batch)
+            objectives, values = self._front_values()
             for i, rec in enumerate(batch.records(self.catalogs)):
-                lines.append([ids[i], *[rec[k] for k in DESIGN_KEYS],
-                              *[_num(ev[name][i]) for name in OBJECTIVES],
-                              *[_num(ev[name][i]) for name in FRONT_VALUES]])
+                lines.append([ids[i], *[rec[k] for k in DESIGN_KEYS], *map(_num, objectives[i]),
+                              *map(_num, values[i]), self.model])
         atomic_write(self.dir / "front.csv", _csv_bytes(header, lines))
 
 
