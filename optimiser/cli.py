@@ -218,6 +218,24 @@ def evaluate_command(
 
 
 # --- afpm search --------------------------------------------------------------------------------
+from .search import parallel as _parallel  # noqa: E402
+
+
+def _search_mapper(search, workers, scheduler):
+    """Where the run's chunks are evaluated. Default: serial for the fast model (a population costs
+    milliseconds; a pool's start-up and traffic cost more than it saves), every local core for the
+    reference model (~0.5 s a design)."""
+    if scheduler:
+        try:
+            return _parallel.make_mapper(search.state.problem.evaluator, scheduler=scheduler)
+        except (OSError, TimeoutError) as exc:
+            typer.echo(f"could not reach the Dask scheduler at {scheduler}: {exc}", err=True)
+            raise typer.Exit(EXIT_INPUT)
+    if workers is None:
+        workers = 1 if search.model == "fast" else _parallel.local_cores()
+    return _parallel.make_mapper(search.state.problem.evaluator, workers=workers)
+
+
 def _budget(hours, minutes, evaluations):
     if hours is not None and minutes is not None:
         raise typer.BadParameter("give --hours or --minutes, not both")
@@ -238,12 +256,35 @@ def search_command(
     population: int = typer.Option(100, "--population", min=4, help="Designs per generation."),
     seed: int = typer.Option(1, "--seed", help="Random seed: the same seed and budget give the same front."),
     run: Path = typer.Option(None, "--run", help="Run folder: resumes it if it holds a run, else starts one there."),
+    fidelity: str = typer.Option(None, "--fidelity", metavar="[fast|reference]",
+                                 help="Field model for every design: fast (quasi-3-D Fourier, default) "
+                                 "or reference (3-D cuboids + images, ~0.5 s a design: use cores). "
+                                 "Fixed when the run starts."),
+    workers: int = typer.Option(None, "--workers", min=1, help="Local worker processes (default: 1 "
+                                "with the fast model, every core with the reference model)."),
+    scheduler: str = typer.Option(None, "--scheduler", help="Address of a running Dask scheduler "
+                                  "(tcp://host:8786) to evaluate on instead of local processes; "
+                                  "needs Dask (the cluster extra of afpm)."),
+    chunk: int = typer.Option(None, "--chunk", min=1, help="Designs per evaluation chunk (default "
+                              "256 fast, 4 reference). Fixed when the run starts."),
 ):
     """Search the catalog choices overnight (NSGA-II style GA) for the Pareto front of charge
     current, drag torque, magnet bill and coil temperature. Ctrl-C saves; --run DIR resumes."""
     budget = _budget(hours, minutes, evaluations)
+    if fidelity not in (None, "fast", "reference"):
+        raise typer.BadParameter(f"--fidelity is fast or reference (got {fidelity!r})")
+    if scheduler and workers is not None:
+        raise typer.BadParameter("give --workers or --scheduler, not both")
+    if scheduler and not _parallel.dask_available():
+        typer.echo(_parallel.INSTALL_HINT, err=True)
+        raise typer.Exit(EXIT_INPUT)
     if run is not None and (run / "run.json").exists():
         search = SearchRun(run)
+        for option, given, kept in (("--fidelity", fidelity, search.model),
+                                    ("--chunk", chunk, search.meta.get("chunk", 0))):
+            if given is not None and given != kept:
+                raise InputError([Problem(str(run), None, None, f"this run was started with {option} "
+                                          f"{kept}; it cannot change (start a new run)")])
         if budget is not None:
             search.set_budget(budget)
         changed = search.changed_catalogs()
@@ -257,13 +298,17 @@ def search_command(
             raise InputError([Problem(str(run), None, None, "folder exists and holds no run: choose "
                                       "a new folder (an earlier run is never overwritten)")])
         run_dir = create_run(run or new_run_dir(), scenario, catalogs, seed=seed, population=population,
-                             budget=budget or Budget(seconds=8 * 3600.0))
+                             budget=budget or Budget(seconds=8 * 3600.0),
+                             settings=Settings(field_model=fidelity or "fast"), chunk=chunk)
         search = SearchRun(run_dir)
         typer.echo(f"new run {run_dir}; budget {search.budget.describe()}; Ctrl-C saves and stops")
     if search.done():
         typer.echo("the run's budget is spent; give a larger --evaluations, --minutes or --hours to continue")
         search.save("finished", force=True)
         return
+    mapper = _search_mapper(search, workers, scheduler)
+    typer.echo(f"{search.model} field model; evaluating on {mapper.description}")
+    search.attach(mapper)
     b = search.budget
 
     def fraction():
@@ -274,19 +319,22 @@ def search_command(
             parts.append(search.state.elapsed_s / b.seconds)
         return min(max(parts), 1.0)
 
-    columns = [TextColumn("gen {task.fields[gen]}"), BarColumn(),
+    columns = [TextColumn("{task.fields[model]} gen {task.fields[gen]}"), BarColumn(),
                TextColumn("{task.fields[evals]} designs, {task.fields[feasible]} feasible, "
                           "front {task.fields[front]}, HV {task.fields[hv]}"),
                TimeElapsedColumn(), TextColumn("left"), TimeRemainingColumn()]
     with Progress(*columns, transient=False) as progress, StopFlag() as stop:
-        task = progress.add_task("search", total=1000, gen=0, evals=search.evaluations, feasible=0,
+        task = progress.add_task("search", total=1000, gen=0, model=search.model, evals=search.evaluations, feasible=0,
                                  front=len(search.state.archive), hv="-", completed=fraction() * 1000)
 
         def update(row):
             progress.update(task, completed=fraction() * 1000, gen=row["generation"], evals=row["evaluations"],
                             feasible=row["feasible"], front=row["front_size"], hv=f"{row['hypervolume']:.4f}")
 
-        status = run_search(search, on_generation=update, stop=stop)
+        try:
+            status = run_search(search, on_generation=update, stop=stop)
+        finally:
+            mapper.close()
     _write_front_page_after_search(search)
     typer.echo(f"{status}: {search.evaluations} designs evaluated, {len(search.state.archive)} on the front; "
                f"see {search.dir / 'front.csv'}"
