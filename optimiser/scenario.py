@@ -7,6 +7,7 @@ once as an ``InputError``. The built-in demo is the fictional 10 m sloop "Kittiw
 """
 from __future__ import annotations
 
+import dataclasses
 import re
 import tomllib
 from dataclasses import dataclass, fields as dc_fields
@@ -22,7 +23,7 @@ __all__ = ["Scenario", "load_scenario", "write_template", "render_template", "FI
 @dataclass(frozen=True)
 class Field:
     key: str            # TOML key (unit in the name)
-    kind: type          # str, float or int
+    kind: type          # str, float, int, or tuple (a list in the file, of `item`)
     default: object     # in the key's unit
     lo: float | None
     hi: float | None
@@ -30,6 +31,8 @@ class Field:
     group: str
     lo_open: bool = False   # lo itself not allowed
     scale: float = 1.0      # key unit -> SI
+    item: type = float      # element type of a tuple field
+    choices: tuple = ()     # allowed words of a tuple-of-str field
 
     @property
     def attr(self) -> str:
@@ -37,6 +40,9 @@ class Field:
 
 
 _MM = 1e-3
+OBJECTIVE_NAMES = ("charge_current_A", "drag_torque_Nm", "magnet_cost", "coil_temperature_C",
+                   "amp_hours_per_day", "mean_drag_force_N")
+"""Objectives a scenario may ask the search for; the first four are the default."""
 FIELDS: tuple[Field, ...] = (
     Field("name", str, "Kittiwake", None, None, "label printed on the build sheet; demo boat: "
           "fictional 10 m sloop", "boat"),
@@ -96,11 +102,32 @@ FIELDS: tuple[Field, ...] = (
           "by hand with a template holds", "search", lo_open=True, scale=_MM),
     Field("wire_margin", float, 0.10, 0, 1, "extra wire bought over the computed length for "
           "leads, terminations and waste (fraction)", "search"),
+    Field("objectives", tuple, OBJECTIVE_NAMES[:4], None, None, "what the search trades off; "
+          "also amp_hours_per_day and mean_drag_force_N when a propeller is given", "search",
+          item=str, choices=OBJECTIVE_NAMES),
+    Field("propeller_diameter_mm", float, 0.0, 0, 3000, "0: no propeller model, the shaft turns "
+          "at sailing_rpm; give the propeller to find the loaded rpm at each boat speed",
+          "propeller", scale=_MM),
+    Field("propeller_pitch_mm", float, 280.0, 10, 5000, "11 in pitch, a common 16 x 11 cruising "
+          "propeller", "propeller", lo_open=True, scale=_MM),
+    Field("propeller_blades", int, 3, 2, 7, "fixed three-blade propeller", "propeller"),
+    Field("propeller_area_ratio", float, 0.40, 0.1, 1.5, "expanded blade-area ratio of a "
+          "cruising propeller (0.35-0.5, common practice)", "propeller"),
+    Field("wake_fraction", float, 0.10, 0, 0.6, "inflow slowed by the hull at the propeller "
+          "(common practice for a sailing yacht, about 0.05-0.15)", "propeller"),
+    Field("shaft_line_friction_Nm", float, 1.0, 0, 100, "stern gland, cutless bearing and "
+          "gearbox in neutral (estimate; measure yours)", "propeller"),
+    Field("water_density_kg_m3", float, 1025.0, 990, 1050, "sea water", "propeller"),
+    Field("profile_boat_speed_kn", tuple, (4.0, 5.0, 6.0, 7.0), 0.5, 30, "boat speeds of the "
+          "sailing profile (knots)", "propeller"),
+    Field("profile_hours_per_day", tuple, (3.0, 5.0, 4.0, 2.0), 0, 24, "hours per day sailed at "
+          "each profile speed", "propeller"),
 )
 _BY_KEY = {f.key: f for f in FIELDS}
 _GROUP_TITLES = {"boat": "Boat", "battery": "Battery bank and rectifier", "shaft": "Shaft",
                  "space": "Space and clearances", "coils": "Coils and casting",
-                 "limits": "Limits", "search": "What the search may choose"}
+                 "limits": "Limits", "search": "What the search may choose",
+                 "propeller": "Propeller and sailing profile (optional)"}
 
 
 @dataclass(frozen=True)
@@ -137,7 +164,21 @@ class Scenario:
     ring_radius_max_m: float
     ring_radius_step_m: float
     wire_margin: float
-    source: str = "built-in demo"   # file it came from, for run records
+    objectives: tuple
+    propeller_diameter_m: float
+    propeller_pitch_m: float
+    propeller_blades: int
+    propeller_area_ratio: float
+    wake_fraction: float
+    shaft_line_friction_Nm: float
+    water_density_kg_m3: float
+    profile_boat_speed_kn: tuple
+    profile_hours_per_day: tuple
+    source: str = "built-in demo"
+
+    @property
+    def has_propeller(self) -> bool:
+        return self.propeller_diameter_m > 0   # file it came from, for run records
 
     def as_dict(self) -> dict:
         return {f.name: getattr(self, f.name) for f in dc_fields(self)}
@@ -184,7 +225,8 @@ def _parse(text: str, file: str, source: str) -> Scenario:
         if msg:
             problems.append(problem(lines.get(key), key, msg))
         else:
-            values[key] = float(value) if f.kind is float else value
+            values[key] = (float(value) if f.kind is float else
+                           tuple(f.item(v) for v in value) if f.kind is tuple else value)
     merged = {f.key: values.get(f.key, f.default) for f in FIELDS}
     if not problems:
         for key, msg in _cross_checks(merged, lines):
@@ -192,6 +234,7 @@ def _parse(text: str, file: str, source: str) -> Scenario:
     if problems:
         raise InputError(problems)
     return Scenario(source=source, **{f.attr: merged[f.key] * f.scale if f.kind is float
+                                      else tuple(merged[f.key]) if f.kind is tuple
                                       else merged[f.key] for f in FIELDS})
 
 
@@ -206,6 +249,19 @@ def _key_lines(text: str) -> dict[str, int]:
 
 def _check(f: Field, value) -> str | None:
     """What is wrong with one value, or None."""
+    if f.kind is tuple:
+        if not isinstance(value, list) or not value:
+            return f"must be a non-empty list in brackets, e.g. {_value_text(f, f.default)} (got {value!r})"
+        if f.item is str:
+            bad = [v for v in value if v not in f.choices]
+            if bad:
+                return f"unknown {bad[0]!r}; " + did_you_mean(str(bad[0]), f.choices)
+            return "lists a name twice" if len(set(value)) != len(value) else None
+        for v in value:
+            msg = _check(dataclasses.replace(f, kind=float), v)
+            if msg:
+                return "each entry " + msg
+        return None
     if f.kind is str:
         return None if isinstance(value, str) and value.strip() else \
             f"must be a non-empty text in quotes (got {value!r})"
@@ -254,6 +310,16 @@ def _cross_checks(v: dict, in_file) -> list[tuple[str, str]]:
     hub = v["shaft_diameter_mm"] / 2 + v["hub_clearance_mm"]
     order("hub_clearance_mm", "ring_radius_max_mm", strict=True, lo=hub,
           lo_name="shaft radius + hub_clearance_mm")
+    if len(v["profile_boat_speed_kn"]) != len(v["profile_hours_per_day"]):
+        key = "profile_hours_per_day" if "profile_hours_per_day" in in_file else "profile_boat_speed_kn"
+        out.append((key, f"profile_boat_speed_kn has {len(v['profile_boat_speed_kn'])} speeds but "
+                         f"profile_hours_per_day {len(v['profile_hours_per_day'])} entries: give "
+                         "one number of hours per speed"))
+    needs = [o for o in v["objectives"] if o in ("amp_hours_per_day", "mean_drag_force_N")]
+    if needs and v["propeller_diameter_mm"] <= 0:
+        out.append(("objectives", f"{needs[0]} needs a propeller: set propeller_diameter_mm"))
+    if len(v["objectives"]) < 2:
+        out.append(("objectives", "a Pareto search needs at least two objectives"))
     fixed = 2 * v["running_clearance_mm"] + 2 * v["resin_skin_mm"]
     order("running_clearance_mm", "max_axial_length_mm", strict=True, lo=fixed,
           lo_name="2 x (running_clearance_mm + resin_skin_mm)")
@@ -274,10 +340,17 @@ def render_template() -> str:
         if f.group != group:
             group = f.group
             out += ["", f"# --- {_GROUP_TITLES[group]} ---"]
-        value = f'"{f.default}"' if f.kind is str else (f"{f.default:g}" if f.kind is int
-                                                         else _float_text(f.default))
-        out += [f"# {f.reason}", f"{f.key} = {value}"]
+        out += [f"# {f.reason}", f"{f.key} = {_value_text(f, f.default)}"]
     return "\n".join(out) + "\n"
+
+
+def _value_text(f: Field, value) -> str:
+    """A value as TOML text, in the key's unit."""
+    if f.kind is tuple:
+        return "[" + ", ".join(f'"{v}"' if f.item is str else _float_text(v) for v in value) + "]"
+    if f.kind is str:
+        return f'"{value}"'
+    return f"{value:g}" if f.kind is int else _float_text(value)
 
 
 def _float_text(x: float) -> str:

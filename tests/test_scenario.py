@@ -36,7 +36,12 @@ def problems_of(path):
 def test_scenario_has_the_spec_attributes():
     names = {f.name for f in dataclasses.fields(Scenario)}
     assert set(SPEC_ATTRIBUTES) <= names
-    assert names - set(SPEC_ATTRIBUTES) == {"source"}
+    # added beside the original interface by the propeller issue
+    assert names - set(SPEC_ATTRIBUTES) == {"source", "objectives", "propeller_diameter_m",
+                                            "propeller_pitch_m", "propeller_blades",
+                                            "propeller_area_ratio", "wake_fraction",
+                                            "shaft_line_friction_Nm", "water_density_kg_m3",
+                                            "profile_boat_speed_kn", "profile_hours_per_day"}
 
 
 def test_demo_is_kittiwake_in_si():
@@ -153,3 +158,31 @@ def test_scenario_check_shows_values_in_file_units(runner):
     result = runner.invoke(app, ["scenario", "check"])
     assert result.exit_code == 0
     assert "shaft_diameter_mm" in result.stdout and "Kittiwake" in result.stdout
+
+
+def test_list_keys_profile_and_objectives(tmp_path):
+    s = load_scenario(write(tmp_path, 'propeller_diameter_mm = 406\nprofile_boat_speed_kn = [5, 6]\n'
+                                      'profile_hours_per_day = [10, 4]\n'
+                                      'objectives = ["amp_hours_per_day", "mean_drag_force_N", "magnet_cost"]\n'))
+    assert s.has_propeller and s.propeller_diameter_m == pytest.approx(0.406)
+    assert s.profile_boat_speed_kn == (5.0, 6.0) and s.profile_hours_per_day == (10.0, 4.0)
+    assert s.objectives == ("amp_hours_per_day", "mean_drag_force_N", "magnet_cost")
+    assert not load_scenario(None).has_propeller
+
+
+@pytest.mark.parametrize("text,key,words", [
+    ('profile_boat_speed_kn = [5, 6]\nprofile_hours_per_day = [1, 2, 3]\n', "profile_hours_per_day",
+     "one number of hours per speed"),
+    ('objectives = ["charge_current_A", "drag_torqe_Nm"]\n', "objectives", "did you mean drag_torque_Nm"),
+    ('objectives = ["amp_hours_per_day", "magnet_cost"]\n', "objectives", "needs a propeller"),
+    ('objectives = ["magnet_cost"]\n', "objectives", "at least two"),
+    ('profile_hours_per_day = [1, 30, 2, 2]\n', "profile_hours_per_day", "each entry must be"),
+    ('profile_boat_speed_kn = 6\n', "profile_boat_speed_kn", "must be a non-empty list"),
+])
+def test_bad_list_values_name_line_and_key(tmp_path, runner, text, key, words):
+    path = write(tmp_path, text)
+    result = runner.invoke(app, ["scenario", "check", str(path)])
+    assert result.exit_code == 2
+    out = result.output + (result.stderr if result.stderr_bytes else "")
+    line = [ln for ln in out.splitlines() if f"key {key}" in ln]
+    assert line and words in line[0] and str(path) in line[0] and "line " in line[0], out
