@@ -183,6 +183,19 @@ def _print_report(report, rows):
                        "runaway" if r["thermal_runaway"] else f"{r['coil_temperature_C']:.0f}",
                        f"{r['open_circuit_line_rms_V']:.1f}")
     console.print(speeds)
+    if "sailing_profile" in report:
+        boat = Table(title=f"Over the sailing profile: {report['amp_hours_per_day']:.1f} Ah per day, "
+                           f"mean added drag {report['mean_added_drag_N']:.0f} N")
+        for col in ("knots", "hours/day", "rpm (loaded)", "rpm (free)", "charge A", "torque N m",
+                    "drag on boat N", "added drag N", "coil C"):
+            boat.add_column(col, justify="right")
+        for r in report["sailing_profile"]:
+            boat.add_row(f"{r['boat_speed_kn']:g}", f"{r['hours_per_day']:g}",
+                         "stalled" if r["stalled"] else f"{r['rpm']:.0f}", f"{r['free_wheel_rpm']:.0f}",
+                         f"{r['charge_current_A']:.2f}", f"{r['drag_torque_Nm']:.2f}",
+                         f"{r['drag_force_N']:.0f}", f"{r['added_drag_N']:.0f}",
+                         f"{r['coil_temperature_C']:.0f}")
+        console.print(boat)
     status = "[green]fits and meets every limit[/green]" if report["feasible"] else "[red]does not work:[/red]"
     console.print(status)
     for p in report["problems"]:

@@ -17,13 +17,16 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .design import DesignBatch
+from .operating import PropellerTable, loaded_operating_point, sailing_profile
 from .physics import electrical, emf, field as fieldmodel, geometry, losses, rectifier, thermal
 from .physics.winding import WindingError, star_of_slots
 
 OBJECTIVES = ("charge_current_A", "drag_torque_Nm", "magnet_cost", "coil_temperature_C")
-"""Objective names in the order of `Evaluation.objectives`."""
-OBJECTIVE_SIGN = np.array([-1.0, 1.0, 1.0, 1.0])
-"""Multiply a value by its sign to get the minimisation form (charge current is maximised)."""
+"""The default objectives (a scenario may choose others, `Evaluator.objectives`)."""
+OBJECTIVE_SENSE = {"charge_current_A": -1.0, "drag_torque_Nm": 1.0, "magnet_cost": 1.0,
+                   "coil_temperature_C": 1.0, "amp_hours_per_day": -1.0, "mean_added_drag_N": 1.0}
+"""Multiply a value by its sense to get the minimisation form (charge is maximised)."""
+OBJECTIVE_SIGN = np.array([OBJECTIVE_SENSE[name] for name in OBJECTIVES])
 
 CONSTRAINTS = tuple(name for name, _ in geometry.FIT_CHECKS) + (
     "coil_too_hot", "magnet_too_hot", "back_iron_saturated", "cut_in_above_sailing", "winding_invalid",
@@ -34,7 +37,8 @@ CONSTRAINT_REASONS = dict(geometry.FIT_CHECKS) | {
     "coil_too_hot": "coil temperature above the wire's thermal class less the scenario's margin",
     "magnet_too_hot": "magnet temperature above its grade's maximum working temperature",
     "back_iron_saturated": "rotor disc too thin: back-iron flux density above saturation",
-    "cut_in_above_sailing": "cut-in speed above the sailing rpm: no charge while sailing",
+    "cut_in_above_sailing": "cut-in speed above the sailing rpm (with a propeller: above its "
+                            "free-wheeling rpm at the fastest profile speed): no charge while sailing",
     "winding_invalid": "layout, multiple or parallel paths give no balanced three-phase winding",
 }
 
@@ -43,6 +47,9 @@ ELV_LIMIT_AC_RMS_V = 50.0
 
 STATOR_RIM_M = 10e-3
 """Resin cast beyond the coils' outer corners, for the stator's mounting ring [m]."""
+
+KNOT_M_S = 1852.0 / 3600.0
+"""One knot [m/s] (international nautical mile of 1852 m)."""
 
 RUNAWAY_C = 400.0
 """Coil temperature reported for a design with no steady state (thermal runaway) [C]."""
@@ -66,9 +73,10 @@ class Evaluation:
     """Results of one evaluate() call: every entry of `values` is an array of shape (n,)."""
 
     values: dict
-    objectives: np.ndarray      # (n, 4), natural sense (current in A, torque, cost, temperature)
+    objectives: np.ndarray      # (n, k), natural sense, columns as Evaluator.objectives
     constraints: np.ndarray     # (n, len(CONSTRAINTS)), <= 0 satisfied
     emf_waveform_V: np.ndarray = field(repr=False)  # (n, 3, M) phase EMF at the operating rpm
+    profile: dict = field(default_factory=dict, repr=False)  # (n, s) per boat speed, with a propeller
 
     def __getitem__(self, name):
         return self.values[name]
@@ -163,14 +171,73 @@ class Evaluator:
         self.disc = cols(catalogs.discs, ("diameter_m", "thickness_m", "price_each"))
         self.layout = cols(catalogs.layouts, ("coils_per_unit", "poles_per_unit"), int)
         self.windings = WindingTable(catalogs.layouts, self.orders)
+        self.objectives = tuple(scenario.objectives)
+        self.objective_sign = np.array([OBJECTIVE_SENSE[name] for name in self.objectives])
+        self.propeller = None
+        if scenario.has_propeller:
+            # One boat, one propeller: tabulate its turbine curve once for the profile speeds.
+            self.boat_speeds_m_s = np.asarray(scenario.profile_boat_speed_kn) * KNOT_M_S
+            self.propeller = PropellerTable(
+                self.boat_speeds_m_s, rpm_max=scenario.max_rpm, diameter_m=scenario.propeller_diameter_m,
+                pitch_m=scenario.propeller_pitch_m, blades=scenario.propeller_blades,
+                area_ratio=scenario.propeller_area_ratio, wake_fraction=scenario.wake_fraction,
+                shaft_friction_Nm=scenario.shaft_line_friction_Nm,
+                density_kg_m3=scenario.water_density_kg_m3)
 
     # -- the pipeline ---------------------------------------------------------------------------
     def evaluate(self, batch: DesignBatch, rpm=None) -> Evaluation:
         """Evaluate every design of `batch` at shaft speed `rpm` [rpm] (default: the sailing rpm).
 
         `rpm` may be a scalar or an array of shape (n,) (one speed per design, e.g. an rpm sweep
-        of one design repeated).
+        of one design repeated). With a propeller in the scenario and no `rpm` given, the designs
+        are also run at their loaded operating point at every boat speed of the sailing profile
+        (`Evaluation.profile`), which gives amp-hours per day and the mean added drag, and the coil
+        temperature becomes the hottest over the profile and the sailing rpm.
         """
+        ev = self._at_speed(batch, rpm)
+        if self.propeller is not None and rpm is None:
+            self._add_profile(batch, ev)
+        # Profile objectives exist only for the sailing evaluation (no `rpm` given): NaN otherwise.
+        missing = np.full(len(batch), np.nan)
+        ev.objectives = np.column_stack([ev.values.get(name, missing) for name in self.objectives])
+        return ev
+
+    def _add_profile(self, batch, ev):
+        """Loaded operating point at each profile speed: where the generator's drag torque meets the
+        torque the free-wheeling propeller takes from the water (operating.loaded_operating_point)."""
+        sc, prop = self.scenario, self.propeller
+        n, s = len(batch), len(self.boat_speeds_m_s)
+        tiled = batch.take(np.repeat(np.arange(n), s))  # design-major: reshape (n, s)
+
+        def generator(rpm):
+            return self._at_speed(tiled, np.asarray(rpm).ravel())["drag_torque_Nm"].reshape(n, s)
+
+        top = np.full((n, s), float(sc.max_rpm))
+        loaded, free = loaded_operating_point(generator, prop.torque, sc.bearing_drag_Nm, rpm_max=top)
+        at = self._at_speed(tiled, loaded.rpm.ravel())
+        current = at["charge_current_A"].reshape(n, s)
+        drag = -prop.thrust(loaded.rpm)
+        added = drag - (-prop.thrust(free.rpm))
+        amp_hours, mean_added = sailing_profile(current, added, sc.profile_hours_per_day)
+        coil = at["coil_temperature_C"].reshape(n, s)
+        ev.profile = {"boat_speed_m_s": np.broadcast_to(self.boat_speeds_m_s, (n, s)),
+                      "rpm": loaded.rpm, "free_wheel_rpm": free.rpm, "stalled": loaded.stalled,
+                      "charge_current_A": current, "drag_torque_Nm": at["drag_torque_Nm"].reshape(n, s),
+                      "drag_force_N": drag, "added_drag_N": added, "coil_temperature_C": coil,
+                      "battery_power_W": at["battery_power_W"].reshape(n, s)}
+        v = ev.values
+        v["amp_hours_per_day"], v["mean_added_drag_N"] = amp_hours, mean_added
+        v["coil_temperature_C"] = np.maximum(v["coil_temperature_C"], coil.max(axis=1))
+        v["thermal_runaway"] = v["thermal_runaway"] | at["thermal_runaway"].reshape(n, s).any(axis=1)
+        names = list(CONSTRAINTS)
+        ev.constraints[:, names.index("coil_too_hot")] = (v["coil_temperature_C"] - v["coil_limit_C"]) / 100.0
+        # With a propeller the shaft speed is found, not given: a design must charge at the
+        # fastest profile speed at least (its cut-in below the propeller's free-wheeling rpm).
+        ev.constraints[:, names.index("cut_in_above_sailing")] = (
+            (v["cut_in_rpm"] - free.rpm.max(axis=1)) / sc.sailing_rpm)
+
+    def _at_speed(self, batch: DesignBatch, rpm=None) -> Evaluation:
+        """The pipeline at one shaft speed per design (objectives filled in by `evaluate`)."""
         sc, st = self.scenario, self.settings
         n = len(batch)
         rpm = np.broadcast_to(np.asarray(sc.sailing_rpm if rpm is None else rpm, float), (n,)).copy()
@@ -367,8 +434,7 @@ class Evaluator:
             "magnet_cost": magnet_cost, "disc_cost": 2.0 * disc["price_each"],
             "axial_length_m": 2.0 * disc["thickness_m"] + 2.0 * mag["thickness_m"] + built.face_gap_m,
         }
-        objectives = np.column_stack([values[name] for name in OBJECTIVES])
-        return Evaluation(values, objectives, constraints, e_unit * (br * rpm)[:, None, None])
+        return Evaluation(values, np.empty((n, 0)), constraints, e_unit * (br * rpm)[:, None, None])
 
     # -- pieces the pipeline switches between ------------------------------------------------------
     def _flux_linkage(self, batch, mag, coil, leg, pole_pairs, br):

@@ -41,7 +41,7 @@ class Field:
 
 _MM = 1e-3
 OBJECTIVE_NAMES = ("charge_current_A", "drag_torque_Nm", "magnet_cost", "coil_temperature_C",
-                   "amp_hours_per_day", "mean_drag_force_N")
+                   "amp_hours_per_day", "mean_added_drag_N")
 """Objectives a scenario may ask the search for; the first four are the default."""
 FIELDS: tuple[Field, ...] = (
     Field("name", str, "Kittiwake", None, None, "label printed on the build sheet; demo boat: "
@@ -103,7 +103,7 @@ FIELDS: tuple[Field, ...] = (
     Field("wire_margin", float, 0.10, 0, 1, "extra wire bought over the computed length for "
           "leads, terminations and waste (fraction)", "search"),
     Field("objectives", tuple, OBJECTIVE_NAMES[:4], None, None, "what the search trades off; "
-          "also amp_hours_per_day and mean_drag_force_N when a propeller is given", "search",
+          "also amp_hours_per_day and mean_added_drag_N when a propeller is given", "search",
           item=str, choices=OBJECTIVE_NAMES),
     Field("propeller_diameter_mm", float, 0.0, 0, 3000, "0: no propeller model, the shaft turns "
           "at sailing_rpm; give the propeller to find the loaded rpm at each boat speed",
@@ -315,7 +315,7 @@ def _cross_checks(v: dict, in_file) -> list[tuple[str, str]]:
         out.append((key, f"profile_boat_speed_kn has {len(v['profile_boat_speed_kn'])} speeds but "
                          f"profile_hours_per_day {len(v['profile_hours_per_day'])} entries: give "
                          "one number of hours per speed"))
-    needs = [o for o in v["objectives"] if o in ("amp_hours_per_day", "mean_drag_force_N")]
+    needs = [o for o in v["objectives"] if o in ("amp_hours_per_day", "mean_added_drag_N")]
     if needs and v["propeller_diameter_mm"] <= 0:
         out.append(("objectives", f"{needs[0]} needs a propeller: set propeller_diameter_mm"))
     if len(v["objectives"]) < 2:

@@ -163,10 +163,10 @@ def test_scenario_check_shows_values_in_file_units(runner):
 def test_list_keys_profile_and_objectives(tmp_path):
     s = load_scenario(write(tmp_path, 'propeller_diameter_mm = 406\nprofile_boat_speed_kn = [5, 6]\n'
                                       'profile_hours_per_day = [10, 4]\n'
-                                      'objectives = ["amp_hours_per_day", "mean_drag_force_N", "magnet_cost"]\n'))
+                                      'objectives = ["amp_hours_per_day", "mean_added_drag_N", "magnet_cost"]\n'))
     assert s.has_propeller and s.propeller_diameter_m == pytest.approx(0.406)
     assert s.profile_boat_speed_kn == (5.0, 6.0) and s.profile_hours_per_day == (10.0, 4.0)
-    assert s.objectives == ("amp_hours_per_day", "mean_drag_force_N", "magnet_cost")
+    assert s.objectives == ("amp_hours_per_day", "mean_added_drag_N", "magnet_cost")
     assert not load_scenario(None).has_propeller
 
 

@@ -66,7 +66,7 @@ def design_report(evaluator: Evaluator, design: DesignBatch) -> dict:
     force = v("axial_attraction_N")
     warnings.append(f"the two rotors pull together with about {force:.0f} N: choose bearings and "
                     "spacers for it and assemble with jacking screws, never by hand")
-    return {
+    report = {
         "design": design.records(evaluator.catalogs)[0],
         "geometry": {k: v(k) for k in (
             "ring_radius_m", "magnet_length_m", "magnet_width_m", "magnet_thickness_m", "face_gap_m",
@@ -103,6 +103,24 @@ def design_report(evaluator: Evaluator, design: DesignBatch) -> dict:
         "problems": sail.problems(0),
         "warnings": warnings,
     }
+    if sail.profile:
+        report["sailing_profile"] = profile_rows(sc, sail.profile)
+        report["amp_hours_per_day"] = v("amp_hours_per_day")
+        report["mean_added_drag_N"] = v("mean_added_drag_N")
+    return report
+
+
+def profile_rows(scenario, profile, i=0):
+    """Boat-speed table of design i: loaded rpm, charge, torque, drag on the boat, coil temperature."""
+    rows = []
+    for j, (knots, hours) in enumerate(zip(scenario.profile_boat_speed_kn, scenario.profile_hours_per_day)):
+        row = {"boat_speed_kn": float(knots), "hours_per_day": float(hours)}
+        for key in ("rpm", "free_wheel_rpm", "charge_current_A", "battery_power_W", "drag_torque_Nm",
+                    "drag_force_N", "added_drag_N", "coil_temperature_C"):
+            row[key] = float(profile[key][i, j])
+        row["stalled"] = bool(profile["stalled"][i, j])
+        rows.append(row)
+    return rows
 
 
 def rpm_table(evaluator: Evaluator, design: DesignBatch, rpms=None) -> list[dict]:
