@@ -305,6 +305,21 @@ def build_sheet(run, design_id) -> Sheet:
               f"bilge air {sc.bilge_air_C:g} C, {sc.diode_forward_drop_V:g} V per diode."),
         ("table", perf), ("svg", "performance", plot)]))
 
+    if "sailing_profile" in rep:
+        boat = Table(["boat speed [kn]", "hours/day", "shaft [rpm]", "free-wheeling [rpm]", "charge [A]",
+                      "drag torque [N m]", "drag on boat [N]", "added drag [N]", "coil [C]"],
+                     [[f"{r['boat_speed_kn']:g}", f"{r['hours_per_day']:g}",
+                       "stalled" if r["stalled"] else f"{r['rpm']:.0f}", f"{r['free_wheel_rpm']:.0f}",
+                       f"{r['charge_current_A']:.2f}", f"{r['drag_torque_Nm']:.2f}", f"{r['drag_force_N']:.0f}",
+                       f"{r['added_drag_N']:.0f}", f"{r['coil_temperature_C']:.0f}"]
+                      for r in rep["sailing_profile"]], "rrrrrrrrr", key="profile")
+        sections.append(Section("Over the sailing profile", [
+            ("p", f"With the {sc.propeller_diameter_m * 1e3:.0f} mm propeller turning the shaft as a water "
+                  f"turbine: {rep['amp_hours_per_day']:.1f} A h per day, mean added drag "
+                  f"{rep['mean_added_drag_N']:.0f} N. The shaft settles where the generator's drag torque "
+                  "meets the torque the propeller takes from the water."),
+            ("table", boat)]))
+
     sections.append(Section("Re-checked with the 3-D reference field model", [
         ("table", _recheck(run, one, s, rep)),
         ("p", "The search ranks designs with the fast field model; the reference model integrates the 3-D "

@@ -70,7 +70,8 @@ class _OneRow:
 def _take(ev, i):
     sl = slice(i, i + 1)
     return Evaluation({k: np.asarray(v)[sl] for k, v in ev.values.items()}, ev.objectives[sl],
-                      ev.constraints[sl], ev.emf_waveform_V[sl])
+                      ev.constraints[sl], ev.emf_waveform_V[sl],
+                      {k: np.asarray(v)[sl] for k, v in ev.profile.items()})
 
 
 def front_reports(evaluator, batch):
@@ -129,7 +130,14 @@ def _panel(rep, design_id, currency):
                 ["open-circuit at max rpm", f"{mx['open_circuit_line_rms_V']:.0f} V rms at {mx['rpm']:.0f} rpm"],
                 ["rotor attraction", f"{e['axial_attraction_N']:.0f} N"],
             ]],
-        ],
+        ] + ([["Over the sailing profile", [
+                ["charge per day", f"{rep['amp_hours_per_day']:.1f} A h"],
+                ["mean added drag", f"{rep['mean_added_drag_N']:.0f} N"]] + [
+                [f"{r['boat_speed_kn']:g} kn, {r['hours_per_day']:g} h/day",
+                 "stalled" if r["stalled"] else
+                 f"{r['rpm']:.0f} rpm, {r['charge_current_A']:.2f} A, {r['added_drag_N']:.0f} N added drag, "
+                 f"coil {r['coil_temperature_C']:.0f} C"] for r in rep["sailing_profile"]]]]
+             if "sailing_profile" in rep else []),
         "warnings": list(rep["warnings"]) + list(rep["problems"]),
     }
 
@@ -155,7 +163,9 @@ def page_data(evaluator, ids, batch, run_dir, reports=None, sail=None) -> dict:
         "ids": list(ids),
         "hover": hover,
         "objectives": {"charge": col("charge_current_A"), "torque": col("drag_torque_Nm"),
-                       "cost": col("magnet_cost"), "temperature": col("coil_temperature_C")},
+                       "cost": col("magnet_cost"), "temperature": col("coil_temperature_C"),
+                       **({"amp_hours": col("amp_hours_per_day"), "added_drag": col("mean_added_drag_N")}
+                          if n and "amp_hours_per_day" in sail.values else {})},
         "variables": {
             "turns": [int(x) for x in batch.turns], "strands": [int(x) for x in batch.strands],
             "ring_mm": [_g(x * 1e3, 4) for x in batch.ring_radius_m],
@@ -246,9 +256,10 @@ Plotly.newPlot(scatter, [{
 scatter.on("plotly_click", function(ev){ if (ev.points && ev.points.length) show(ev.points[0].pointIndex); });
 var dims = [
   ["charge current [A]", O.charge], ["drag torque [N m]", O.torque],
-  ["magnet bill [" + D.currency + "]", O.cost], ["coil temperature [C]", O.temperature],
+  ["magnet bill [" + D.currency + "]", O.cost], ["coil temperature [C]", O.temperature]].concat(
+  O.amp_hours ? [["charge per day [A h]", O.amp_hours], ["mean added drag [N]", O.added_drag]] : []).concat([
   ["turns", V.turns], ["strands", V.strands], ["ring radius [mm]", V.ring_mm],
-  ["poles", V.poles], ["coils", V.coils], ["wire diameter [mm]", V.wire_mm]];
+  ["poles", V.poles], ["coils", V.coils], ["wire diameter [mm]", V.wire_mm]]);
 var par = document.getElementById("parcoords");
 Plotly.newPlot(par, [{
   type: "parcoords",
