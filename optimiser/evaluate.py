@@ -64,8 +64,9 @@ class Settings:
     n_samples: int = 72
     field_model: str = "fast"  # "fast" (Fourier, quasi-3-D) or "reference" (3-D cuboids + images)
     inductance: bool = False   # include commutation (slower time-domain bridge) instead of resistive
-    thermal_iterations: int = 8
-    inductance_images: int = 4  # image coils per side summed exactly (8: 1.3 % closer, twice the cost)
+    thermal_iterations: int = 6
+    inductance_images: int = 1  # image coils per side summed exactly before the tail integral
+    #                             (within 0.7 % of 200 exact images over the search space)
 
 
 @dataclass
