@@ -18,6 +18,7 @@ from __future__ import annotations
 import argparse
 import json
 import logging
+import os
 import platform
 import time
 from pathlib import Path
@@ -27,7 +28,8 @@ import numpy as np
 from optimiser.catalogs import load_catalogs
 from optimiser.evaluate import Evaluator, Settings
 from optimiser.scenario import load_scenario
-from optimiser.search.parallel import DaskMapper, PoolMapper, SerialMapper, dask_available, local_cores
+from optimiser.search.parallel import (DaskMapper, PoolMapper, SerialMapper, dask_available, local_cores,
+                                       roomy_allocator)
 from optimiser.search.problem import split_chunks
 from optimiser.search.run import DEFAULT_CHUNK
 from optimiser.search.space import SearchSpace
@@ -52,14 +54,15 @@ def timed(fn, repeat=1):
     return best
 
 
-def round_trip(mapper, chunk, n=20):
-    """Median seconds of one chunk sent alone (latency: submit, evaluate, return)."""
+def round_trip(mapper, chunk, n=40):
+    """Fastest of n round trips of one chunk sent alone (submit, evaluate, return): the minimum,
+    because other load on the machine only ever adds time."""
     times = []
     for _ in range(n):
         t0 = time.perf_counter()
         mapper.map([chunk])
         times.append(time.perf_counter() - t0)
-    return float(np.median(times))
+    return float(np.min(times))
 
 
 def main():
@@ -68,12 +71,14 @@ def main():
     ap.add_argument("--out", type=Path, help="also write the JSON here")
     args = ap.parse_args()
     cores = local_cores()
+    tuned = roomy_allocator()  # as the search does in its own process and in every worker
     catalogs, scenario = load_catalogs(ROOT / "catalogs"), load_scenario(None)
     fast = Evaluator(catalogs, scenario, Settings(field_model="fast"))
     ref = Evaluator(catalogs, scenario, Settings(field_model="reference"))
     n_ref = 8 * cores if args.quick else 16 * cores
     out = {"machine": {"python": platform.python_version(), "cores": cores,
                        "processor": platform.processor() or platform.machine()},
+           "allocator_tuned": tuned, "load_average_at_start": os.getloadavg(),
            "reference_designs": n_ref, "reference_chunk": DEFAULT_CHUNK["reference"],
            "fast_chunk": DEFAULT_CHUNK["fast"]}
 
@@ -87,7 +92,12 @@ def main():
     out["reference_s_per_design"] = by_chunk
 
     chunks = split_chunks(m_ref, DEFAULT_CHUNK["reference"])
+    c0 = time.process_time()
     t_serial = timed(lambda: serial.map(chunks))
+    # CPU seconds per design (all threads of this process): wall time on a loaded machine says
+    # little; with chunk overhead this small, an idle machine's speed-up is about cores x wall/CPU.
+    out["reference_cpu_s_per_design_serial"] = (time.process_time() - c0) / n_ref
+    out["reference_wall_s_per_design_serial"] = t_serial / n_ref
     rates = {"serial": n_ref / t_serial}
     one_fast = designs(fast, 1, seed=2)
     t_local_1 = round_trip(SerialMapper(fast), one_fast)
@@ -136,6 +146,7 @@ def main():
     out["startup_s"] = startup
     out["chunk_round_trip_s"] = trips
     out["chunk_overhead_s"] = {k: v - t_local_1 for k, v in trips.items() if k != "in_process"}
+    out["load_average_at_end"] = os.getloadavg()
     text = json.dumps(out, indent=2)
     print(text)
     if args.out:
