@@ -242,7 +242,8 @@ def _search_mapper(search, workers, scheduler):
         try:
             return _parallel.make_mapper(search.state.problem.evaluator, scheduler=scheduler)
         except (OSError, TimeoutError) as exc:
-            typer.echo(f"could not reach the Dask scheduler at {scheduler}: {exc}", err=True)
+            typer.echo(f"could not reach the Dask scheduler at {scheduler}: {exc}; the run is kept: "
+                       f"afpm search --run {search.dir} resumes it", err=True)
             raise typer.Exit(EXIT_INPUT)
     if workers is None:
         workers = 1 if search.model == "fast" else _parallel.local_cores()

@@ -23,6 +23,8 @@ import os
 import pickle
 import signal
 import sys
+import threading
+import time
 from concurrent.futures import ProcessPoolExecutor
 from concurrent.futures.process import BrokenProcessPool
 
@@ -92,8 +94,17 @@ class SerialMapper:
 _WORKER_EVALUATOR = None
 
 
+def _exit_with_parent(parent_pid):
+    # A parent killed with kill -9 leaves its pool's workers waiting on a queue nobody will ever
+    # write to: each worker watches for it and leaves.
+    while os.getppid() == parent_pid:
+        time.sleep(1.0)
+    os._exit(0)
+
+
 def _pool_init(evaluator_bytes):
     global _WORKER_EVALUATOR
+    threading.Thread(target=_exit_with_parent, args=(os.getppid(),), daemon=True).start()
     # Ctrl-C in the terminal reaches the whole process group: the main process finishes the
     # generation and saves, so the workers must not die of it half-way through a chunk.
     signal.signal(signal.SIGINT, signal.SIG_IGN)
