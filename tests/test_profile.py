@@ -111,3 +111,19 @@ def test_evaluate_json_has_the_boat_speed_table(runner, catalogs, sample, tmp_pa
                 "coil_temperature_C", "stalled"):
         assert key in rows[0]
     assert out["amp_hours_per_day"] == pytest.approx(sum(r["charge_current_A"] * r["hours_per_day"] for r in rows))
+
+
+def test_search_with_a_propeller_trades_the_scenario_objectives(tmp_path):
+    from optimiser.search.run import Budget, SearchRun, create_run, run_search
+
+    scenario = tmp_path / "boat.toml"
+    scenario.write_text('propeller_diameter_mm = 406\n'
+                        'objectives = ["amp_hours_per_day", "mean_added_drag_N", "magnet_cost"]\n')
+    run = SearchRun(create_run(tmp_path / "run", scenario, CATALOGS, seed=2, population=20,
+                               budget=Budget(evaluations=120)))
+    assert run_search(run) == "finished"
+    header = (tmp_path / "run" / "front.csv").read_text().splitlines()[0].split(",")
+    assert header[11:14] == ["amp_hours_per_day", "mean_added_drag_N", "magnet_cost"]
+    assert "charge_current_A" in header  # the default objectives stay beside as values
+    history = (tmp_path / "run" / "history.csv").read_text().splitlines()[0]
+    assert "best_amp_hours_per_day" in history

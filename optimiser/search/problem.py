@@ -19,7 +19,7 @@ from pymoo.core.duplicate import DuplicateElimination
 from pymoo.core.problem import Problem
 
 from ..design import DesignBatch
-from ..evaluate import CONSTRAINTS, OBJECTIVE_SIGN, OBJECTIVES
+from ..evaluate import CONSTRAINTS, OBJECTIVES
 
 FRONT_VALUES = ("emf_line_rms_per_rpm_V", "cut_in_rpm", "battery_power_W", "efficiency",
                 "coil_thickness_m", "face_gap_m", "copper_mass_kg", "wire_cost", "disc_cost",
@@ -35,8 +35,14 @@ def evaluate_designs(evaluator, matrix):
     A pure function of (evaluator, matrix): what every worker runs on its chunks.
     """
     ev = evaluator.evaluate(DesignBatch.from_matrix(matrix))
-    V = np.column_stack([np.asarray(ev[name], float) for name in FRONT_VALUES])
-    return ev.objectives * OBJECTIVE_SIGN, ev.constraints, V
+    V = np.column_stack([np.asarray(ev[name], float) for name in front_values(evaluator)])
+    return ev.objectives * evaluator.objective_sign, ev.constraints, V
+
+
+def front_values(evaluator):
+    """FRONT_VALUES, plus the default objectives a scenario's own objectives leave out."""
+    extra = [name for name in OBJECTIVES if name not in evaluator.objectives]
+    return (*extra, *FRONT_VALUES)
 
 
 def split_chunks(matrix, chunk):
@@ -49,10 +55,10 @@ def split_chunks(matrix, chunk):
 class DesignCache:
     """Objectives and constraints of every distinct design evaluated, in order of first evaluation."""
 
-    def __init__(self, n_var):
+    def __init__(self, n_var, n_obj):
         self.index = {}
         self.designs = np.empty((0, n_var))
-        self.F = np.empty((0, len(OBJECTIVES)))   # minimisation form
+        self.F = np.empty((0, n_obj))   # minimisation form
         self.G = np.empty((0, len(CONSTRAINTS)))
         self.values = {}  # cache row -> FRONT_VALUES, for feasible designs (pruned to the front by the run)
         self._n = 0
@@ -111,12 +117,13 @@ class DesignCache:
 
 
 class SizingProblem(Problem):
-    """Four objectives (charge current maximised; torque, magnet bill, coil temperature minimised)."""
+    """The scenario's objectives (by default: charge current maximised; torque, magnet bill and coil
+    temperature minimised) under the fit, thermal, saturation and cut-in constraints."""
 
     def __init__(self, space, evaluator, chunk=0):
-        super().__init__(vars=space.variables, n_obj=len(OBJECTIVES), n_ieq_constr=len(CONSTRAINTS))
+        super().__init__(vars=space.variables, n_obj=len(evaluator.objectives), n_ieq_constr=len(CONSTRAINTS))
         self.space, self.evaluator = space, evaluator
-        self.cache = DesignCache(n_var=10)
+        self.cache = DesignCache(n_var=10, n_obj=len(evaluator.objectives))
         self.chunk = int(chunk)  # designs per chunk, fixed for the run's life (0: whole population)
         self.mapper = None       # where chunks are evaluated; never pickled (see __getstate__)
 

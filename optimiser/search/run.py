@@ -39,10 +39,10 @@ from pymoo.core.mixed import MixedVariableGA, MixedVariableMating
 
 from ..catalogs import load_catalogs
 from ..design import DESIGN_KEYS, DesignBatch
-from ..evaluate import OBJECTIVE_SIGN, OBJECTIVES, Evaluator, Settings
+from ..evaluate import Evaluator, Settings
 from ..scenario import load_scenario
 from .front import hypervolume, nondominated
-from .problem import FRONT_VALUES, DesignDuplicateElimination, SizingProblem, evaluate_designs
+from .problem import DesignDuplicateElimination, SizingProblem, evaluate_designs, front_values
 from .space import SearchSpace
 
 CHECKPOINT_EVERY_S = float(os.environ.get("AFPM_CHECKPOINT_S", "5"))
@@ -235,26 +235,39 @@ class SearchRun:
             "hypervolume": hypervolume(front_F, st.hv_box) if st.hv_box else 0.0,
             "elapsed_s": round(st.elapsed_s, 3),
         }
-        for j, name in enumerate(OBJECTIVES):
-            row["best_" + name] = float(np.min(front_F[:, j]) * OBJECTIVE_SIGN[j]) if len(front_F) else ""
+        ev = problem.evaluator
+        for j, name in enumerate(ev.objectives):
+            row["best_" + name] = float(np.min(front_F[:, j]) * ev.objective_sign[j]) if len(front_F) else ""
         st.history.append(row)
         return row
 
     def _hv_box(self, F):
         """Hypervolume box, frozen when the first feasible design appears (so values compare over time).
 
-        Minimisation form: ideal (-2 x best current, 0 N m, 0 cost, bilge air), reference (0 A,
-        2 x worst torque found, the dearest possible magnet bill, the hottest wire limit).
+        Minimisation form, per objective: charge (current or amp-hours) from twice the best found
+        to none; drag (torque or added force) from none to twice the worst found; magnet bill
+        from nothing to the dearest possible; coil temperature from bilge air to the hottest
+        wire limit.
         """
         ev = self.state.problem.evaluator
         poles_max = max(int(r.poles_per_unit) * int(r.max_multiple) for r in self.catalogs.layouts.itertuples())
-        bill_max = 2.0 * poles_max * float(ev.magnet["price_each"].max())
-        hot = float((ev.wire["thermal_class_C"] - self.scenario.temperature_margin_K).max())
-        ideal = np.array([2.0 * F[:, 0].min(), 0.0, 0.0, self.scenario.bilge_air_C])
-        ref = np.array([0.0, 2.0 * F[:, 1].max(), bill_max, hot])
-        return ideal, ref
+        known = {
+            "magnet_cost": (0.0, 2.0 * poles_max * float(ev.magnet["price_each"].max())),
+            "coil_temperature_C": (self.scenario.bilge_air_C,
+                                   float((ev.wire["thermal_class_C"] - self.scenario.temperature_margin_K).max())),
+        }
+        ideal, ref = [], []
+        for j, name in enumerate(ev.objectives):
+            if name in known:
+                lo, hi = known[name]
+            elif ev.objective_sign[j] < 0:   # maximised: F = -value <= 0
+                lo, hi = 2.0 * F[:, j].min(), 0.0
+            else:                            # minimised drag: >= 0
+                lo, hi = 0.0, 2.0 * F[:, j].max()
+            ideal.append(lo)
+            ref.append(hi if hi > lo else lo + 1.0)
+        return np.array(ideal), np.array(ref)
 
-    # -- saving ------------------------------------------------------------------------------------
     def save(self, status, force=False):
         """Checkpoint (at most every few seconds unless forced), history, front and run.json."""
         if not force and time.monotonic() - self._last_save < CHECKPOINT_EVERY_S:
@@ -288,17 +301,19 @@ class SearchRun:
         """
         problem = self.state.problem
         cache, rows = problem.cache, self.state.archive
-        objectives = cache.F[rows] * OBJECTIVE_SIGN
+        objectives = cache.F[rows] * self.state.problem.evaluator.objective_sign
         missing = [r for r in rows if int(r) not in cache.values]
         if missing:
             _, _, V = evaluate_designs(problem.evaluator, cache.designs[np.array(missing)])
             cache.values.update({int(r): V[j] for j, r in enumerate(missing)})
-        values = np.array([cache.values[int(r)] for r in rows]).reshape(len(rows), len(FRONT_VALUES))
+        names = front_values(self.state.problem.evaluator)
+        values = np.array([cache.values[int(r)] for r in rows]).reshape(len(rows), len(names))
         return objectives, values
 
     def _write_front(self):
         ids, batch = self.front_designs()
-        header = ["id", *DESIGN_KEYS, *OBJECTIVES, *FRONT_VALUES, "model"]
+        ev = self.state.problem.evaluator
+        header = ["id", *DESIGN_KEYS, *ev.objectives, *front_values(ev), "model"]
         lines = []
         if len(batch):
             objectives, values = self._front_values()
