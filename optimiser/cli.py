@@ -12,6 +12,7 @@ from pathlib import Path
 
 import typer
 from rich.console import Console
+from rich.markup import escape as rich_escape
 from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn, TimeRemainingColumn
 from rich.table import Table
 
@@ -21,6 +22,7 @@ from .errors import InputError, Problem
 from .evaluate import Evaluator, Settings
 from .report.evaluation import design_report, rpm_table
 from .scenario import FIELDS, load_scenario, write_template
+from .search import parallel as _parallel
 from .search.run import Budget, SearchRun, StopFlag, create_run, new_run_dir, run_search
 
 __all__ = ["app", "run_checked", "input_command", "report_problems", "EXIT_INPUT"]
@@ -231,8 +233,6 @@ def evaluate_command(
 
 
 # --- afpm search --------------------------------------------------------------------------------
-from .search import parallel as _parallel  # noqa: E402
-
 
 def _search_mapper(search, workers, scheduler):
     """Where the run's chunks are evaluated. Default: serial for the fast model (a population costs
@@ -282,8 +282,9 @@ def search_command(
     chunk: int = typer.Option(None, "--chunk", min=1, help="Designs per evaluation chunk (default "
                               "256 fast, 4 reference). Fixed when the run starts."),
 ):
-    """Search the catalog choices overnight (NSGA-II style GA) for the Pareto front of charge
-    current, drag torque, magnet bill and coil temperature. Ctrl-C saves; --run DIR resumes."""
+    """Search the catalog choices overnight (NSGA-II style GA) for the Pareto front of the
+    scenario's objectives (default: charge current, drag torque, magnet bill, coil temperature).
+    Ctrl-C saves; --run DIR resumes."""
     budget = _budget(hours, minutes, evaluations)
     if fidelity not in (None, "fast", "reference"):
         raise typer.BadParameter(f"--fidelity is fast or reference (got {fidelity!r})")
@@ -432,8 +433,3 @@ def pick_command(
                "fuse near the battery; disconnect before motoring; follow local codes, marine electrical "
                "standards and a qualified marine electrician.")
 
-
-def rich_escape(text: str) -> str:
-    from rich.markup import escape
-
-    return escape(text)
