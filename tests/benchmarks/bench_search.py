@@ -332,11 +332,13 @@ def memory_child(seconds, population, out_path):
             if run.state.elapsed_s - last[0] >= max(1.0, seconds / 60):
                 last[0] = run.state.elapsed_s
                 cache = run.state.problem.cache
-                samples.append({"evaluations": row["evaluations"], "elapsed_s": row["elapsed_s"],
-                                "rss_bytes": _rss_bytes(), "front_size": row["front_size"],
+                samples.append({"generation": row["generation"], "evaluations": row["evaluations"],
+                                "elapsed_s": row["elapsed_s"], "rss_bytes": _rss_bytes(),
+                                "peak_rss_so_far_bytes": _maxrss_bytes(), "front_size": row["front_size"],
                                 "cache_array_bytes": int(cache.designs.nbytes + cache.F.nbytes + cache.G.nbytes)})
 
         run_search(run, on_generation=on_generation)
+        peak_search = _maxrss_bytes()
         wall = time.perf_counter() - t_wall
         t = time.perf_counter()
         blob = pickle.dumps(run.state, protocol=pickle.HIGHEST_PROTOCOL)
@@ -344,7 +346,8 @@ def memory_child(seconds, population, out_path):
         result = {"population": population, "running_s": round(run.state.elapsed_s, 2), "wall_s": round(wall, 2),
                   "evaluations": run.evaluations, "generations": len(run.state.history),
                   "front_size": int(len(run.state.archive)), "base_rss_bytes": base_rss,
-                  "after_setup_rss_bytes": setup_rss, "peak_rss_bytes": _maxrss_bytes(),
+                  "after_setup_rss_bytes": setup_rss, "peak_rss_bytes": peak_search,
+                  "peak_rss_after_extra_pickle_bytes": _maxrss_bytes(),
                   "final_pickle_bytes": len(blob), "final_pickle_s": round(pickle_s, 4),
                   "samples": samples, "saves": saves}
     Path(out_path).write_text(json.dumps(result))
@@ -364,31 +367,40 @@ def memory_section(seconds, population, hours):
         subprocess.run([sys.executable, __file__, "--memory-child", str(seconds), "--population",
                         str(population), "--child-out", str(out)], check=True)
         child = json.loads(out.read_text())
-    s, sv = child["samples"], child["saves"]
-    ev = [r["evaluations"] for r in s]
-    el = [r["elapsed_s"] for r in s]
-    rate_all = child["evaluations"] / child["running_s"]
-    half = len(s) // 2
-    rate_late = (ev[-1] - ev[half]) / (el[-1] - el[half]) if len(s) > 2 and el[-1] > el[half] else rate_all
+    s, sv, m = child["samples"], child["saves"], child
+    ev = np.array([r["evaluations"] for r in s], float)
+    el = np.array([r["elapsed_s"] for r in s], float)
+    q = (3 * len(s)) // 4
+    # The rate falls as the run goes on (the archive grows; more offspring are cache hits), so the
+    # last quarter's rate is used: an overestimate of a later hour's evaluations, hence of its memory.
+    rate_late = (ev[-1] - ev[q]) / (el[-1] - el[q]) if len(s) > 4 and el[-1] > el[q] else m["evaluations"] / m["running_s"]
     a_rss, b_rss = _fit(ev, [r["rss_bytes"] for r in s])
-    a_ck, b_ck = _fit([r["evaluations"] for r in sv], [r["checkpoint_bytes"] for r in sv])
-    a_t, b_t = _fit([r["evaluations"] for r in sv], [r["save_s"] for r in sv])
+    grown = m["evaluations"]
+    per_eval = {"rss_growth_bytes_per_evaluation_fit": round(b_rss, 1),
+                "rss_growth_bytes_per_evaluation_whole_run": round((s[-1]["rss_bytes"] - m["after_setup_rss_bytes"]) / grown, 1),
+                "peak_over_setup_bytes_per_evaluation": round((m["peak_rss_bytes"] - m["after_setup_rss_bytes"]) / grown, 1),
+                "checkpoint_bytes_per_evaluation": round(sv[-1]["checkpoint_bytes"] / sv[-1]["evaluations"], 1),
+                "save_s_per_million_evaluations": round(1e6 * sv[-1]["save_s"] / sv[-1]["evaluations"], 2)}
+    rates = [round((ev[i + 1] - ev[i]) / (el[i + 1] - el[i]), 1) for i in range(0, len(s) - 1, max(1, len(s) // 8))]
     result = {"inputs": "demo catalogs (catalogs/) and demo scenario", "population": population,
               "measured": {k: v for k, v in child.items() if k not in ("samples", "saves")},
-              "evaluations_per_s": {"whole_run": round(rate_all, 1), "second_half": round(rate_late, 1)},
-              "rss_bytes_per_evaluation": round(b_rss, 1),
-              "checkpoint_bytes_per_evaluation": round(b_ck, 1),
-              "save_s_per_million_evaluations": round(b_t * 1e6, 3),
+              "evaluations_per_s": {"whole_run": round(m["evaluations"] / m["running_s"], 1),
+                                    "last_quarter": round(rate_late, 1), "over_the_run": rates},
+              "per_evaluation": per_eval,
               "samples": s[:: max(1, len(s) // 12)] + s[-1:], "saves": sv[:: max(1, len(sv) // 12)] + sv[-1:]}
     if hours is None:
-        e1 = rate_late * 3600.0
-        ck = a_ck + b_ck * e1
-        save = a_t + b_t * e1
+        e1 = m["evaluations"] + rate_late * (3600.0 - m["running_s"])
+        scale = e1 / grown
+        ck = sv[-1]["checkpoint_bytes"] * e1 / sv[-1]["evaluations"]
+        save = sv[-1]["save_s"] * e1 / sv[-1]["evaluations"]
         result["extrapolated_to_one_hour"] = {
-            "label": "EXTRAPOLATED (linear in evaluations from a %.0f s run; rate assumed constant)" % seconds,
-            "evaluations": int(e1), "peak_rss_bytes": int(a_rss + b_rss * e1), "checkpoint_bytes": int(ck),
-            "save_s": round(save, 2),
-            "share_of_time_saving": round(save / (save + float(os.environ.get("AFPM_CHECKPOINT_S", "5"))), 3)}
+            "label": ("EXTRAPOLATED from a %.0f s run: memory, checkpoint size and save time taken "
+                      "proportional to evaluations, evaluations at the last quarter's rate" % m["running_s"]),
+            "evaluations": int(e1),
+            "rss_bytes": int(m["after_setup_rss_bytes"] + (s[-1]["rss_bytes"] - m["after_setup_rss_bytes"]) * scale),
+            "peak_rss_bytes": int(m["after_setup_rss_bytes"] + (m["peak_rss_bytes"] - m["after_setup_rss_bytes"]) * scale),
+            "checkpoint_bytes": int(ck), "save_s": round(save, 2),
+            "share_of_running_time_saving": round(save / (save + float(os.environ.get("AFPM_CHECKPOINT_S", "5"))), 3)}
     else:
         result["label"] = f"MEASURED over {hours} h of running time"
     return result
