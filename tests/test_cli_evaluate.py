@@ -50,8 +50,7 @@ def feasible_record(demo):
     space = SearchSpace(evaluator)
     rng = np.random.default_rng(5)
     n = 20000
-    cols = {name: rng.choice(var.options, n) if hasattr(var, "options")
-            else rng.integers(var.bounds[0], var.bounds[1] + 1, n) for name, var in space.variables.items()}
+    cols = space.random_columns(n, rng)
     batch = space.decode_columns(cols)
     ev = evaluator.evaluate(batch)
     good = np.flatnonzero(ev.feasible & (ev["charge_current_A"] > 0))

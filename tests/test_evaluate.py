@@ -50,9 +50,7 @@ def random_designs(evaluator, n, seed):
     """n designs decoded from uniformly random search variables (feasible or not)."""
     space = SearchSpace(evaluator)
     rng = np.random.default_rng(seed)
-    cols = {name: rng.choice(var.options, n) if hasattr(var, "options")
-            else rng.integers(var.bounds[0], var.bounds[1] + 1, n)
-            for name, var in space.variables.items()}
+    cols = space.random_columns(n, rng)
     return space.decode_columns(cols)
 
 

@@ -109,8 +109,7 @@ class DiesOnce:
 def _chunks(evaluator, n=60, size=10):
     space = SearchSpace(evaluator)
     rng = np.random.default_rng(2)
-    cols = {name: rng.choice(var.options, n) if hasattr(var, "options") else
-            rng.integers(var.bounds[0], var.bounds[1] + 1, n) for name, var in space.variables.items()}
+    cols = space.random_columns(n, rng)
     return split_chunks(space.decode_columns(cols).as_matrix(), size)
 
 

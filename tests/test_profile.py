@@ -38,8 +38,7 @@ def sample(catalogs, boat):
     space = SearchSpace(evaluator)
     rng = np.random.default_rng(4)
     n = 4000
-    cols = {name: rng.choice(var.options, n) if hasattr(var, "options") else
-            rng.integers(var.bounds[0], var.bounds[1] + 1, n) for name, var in space.variables.items()}
+    cols = space.random_columns(n, rng)
     batch = space.decode_columns(cols)
     fits = evaluator.evaluate(batch, rpm=boat.sailing_rpm).constraints[:, :6].max(axis=1) <= 0
     batch = batch.take(np.flatnonzero(fits)[:150])

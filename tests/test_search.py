@@ -33,8 +33,7 @@ def test_every_decoded_design_has_a_balanced_winding(evaluator):
     space = SearchSpace(evaluator)
     rng = np.random.default_rng(0)
     n = 5000
-    cols = {name: rng.choice(var.options, n) if hasattr(var, "options") else
-            rng.integers(var.bounds[0], var.bounds[1] + 1, n) for name, var in space.variables.items()}
+    cols = space.random_columns(n, rng)
     batch = space.decode_columns(cols)
     combo = evaluator.windings.index(batch.layout, batch.multiple)
     assert np.all(combo >= 0)
@@ -54,8 +53,7 @@ def test_cache_evaluates_each_distinct_design_once(evaluator):
         return problem.evaluate_matrix(matrix)
 
     rng = np.random.default_rng(1)
-    cols = {name: rng.choice(var.options, 50) if hasattr(var, "options") else
-            rng.integers(var.bounds[0], var.bounds[1] + 1, 50) for name, var in space.variables.items()}
+    cols = space.random_columns(50, rng)
     matrix = space.decode_columns(cols).as_matrix()
     doubled = np.vstack([matrix, matrix[:10]])
     rows = problem.cache.lookup(doubled, counting)

@@ -54,6 +54,16 @@ class SearchSpace:
         idx = np.where(ok, np.arange(ok.shape[1])[None, :], 0)
         self._paths_lut = np.maximum(np.maximum.accumulate(idx, axis=1), 1)
 
+    def random_columns(self, n, rng):
+        """n uniformly random genotypes as integer columns (decode them with `decode_columns`)."""
+        return {name: rng.choice(var.options, n) if isinstance(var, Choice)
+                else rng.integers(var.bounds[0], var.bounds[1] + 1, n)
+                for name, var in self.variables.items()}
+
+    def sample(self, n, rng) -> DesignBatch:
+        """n designs decoded from uniformly random genotypes (feasible or not), from `rng`."""
+        return self.decode_columns(self.random_columns(n, rng))
+
     def decode(self, X) -> DesignBatch:
         """Designs from pymoo's mixed-variable population: an object array of dicts."""
         cols = {name: np.fromiter((x[name] for x in X), dtype=np.int64, count=len(X)) for name in VARIABLES}

@@ -42,8 +42,7 @@ TARGETS = {"electromagnetic_designs_per_s": 50_000, "evaluate_designs_per_s": 20
 def random_designs(evaluator, n, seed=0):
     space = SearchSpace(evaluator)
     rng = np.random.default_rng(seed)
-    cols = {name: rng.choice(var.options, n) if hasattr(var, "options")
-            else rng.integers(var.bounds[0], var.bounds[1] + 1, n) for name, var in space.variables.items()}
+    cols = space.random_columns(n, rng)
     return space.decode_columns(cols)
 
 

@@ -40,8 +40,7 @@ ROOT = Path(__file__).resolve().parents[2]
 def designs(evaluator, n, seed=0):
     space = SearchSpace(evaluator)
     rng = np.random.default_rng(seed)
-    cols = {name: rng.choice(var.options, n) if hasattr(var, "options") else
-            rng.integers(var.bounds[0], var.bounds[1] + 1, n) for name, var in space.variables.items()}
+    cols = space.random_columns(n, rng)
     return space.decode_columns(cols).as_matrix()
 
 
