@@ -147,3 +147,16 @@ def test_cli_search_refuses_a_folder_that_is_not_a_run(tmp_path, runner):
     assert result.exit_code == 2
     assert "never overwritten" in result.output + (result.stderr if result.stderr_bytes else "")
     assert (target / "mine.txt").read_text() == "keep me"
+
+
+def test_cache_checkpoint_keeps_rows_and_rebuilds_its_index(evaluator):
+    import pickle
+
+    space = SearchSpace(evaluator)
+    problem = SizingProblem(space, evaluator)
+    matrix = space.sample(300, np.random.default_rng(8)).as_matrix()
+    rows = problem.cache.lookup(matrix, problem.evaluate_matrix)
+    restored = pickle.loads(pickle.dumps(problem.cache))
+    assert len(restored.F) == len(restored) == len(problem.cache)  # no empty capacity saved
+    assert restored.index == problem.cache.index
+    assert np.array_equal(restored.lookup(matrix, None), rows)  # all found: evaluate never called

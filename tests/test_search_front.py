@@ -41,3 +41,18 @@ def test_hv_box_contains_the_points():
     ideal, ref = hv_box(F)
     assert np.all(ideal < F.min(axis=0)) and np.all(ref > F.max(axis=0))
     assert 0.0 < hypervolume(F, (ideal, ref)) < 1.0
+
+
+def test_merging_batch_by_batch_equals_the_front_of_everything():
+    # merge_front keeps a front up to date generation by generation; it must equal the front of
+    # the union every time (ties included), checked against pymoo's own sorting.
+    from optimiser.search.front import merge_front
+
+    rng = np.random.default_rng(11)
+    F = np.round(rng.random((3000, 4)), 2)  # rounding makes ties common
+    front = np.empty(0, dtype=np.int64)
+    for start in range(0, len(F), 150):
+        front = merge_front(F, front, np.arange(start, start + 150))
+        seen = F[: start + 150]
+        expected = NonDominatedSorting().do(seen, only_non_dominated_front=True)
+        assert np.array_equal(front, np.sort(expected))

@@ -111,9 +111,19 @@ class DesignCache:
         values = getattr(self, "values", {})
         self.values = {int(r): values[int(r)] for r in rows if int(r) in values}
 
+    def __getstate__(self):
+        # Checkpoint only the filled rows, and not the index: it is rebuilt from the designs.
+        state = self.__dict__.copy()
+        for name in ("designs", "F", "G"):
+            state[name] = state[name][: self._n].copy()
+        del state["index"]
+        return state
+
     def __setstate__(self, state):
         state.setdefault("values", {})  # checkpoints from before the values were kept
         self.__dict__.update(state)
+        if "index" not in state:
+            self.index = {row.tobytes(): i for i, row in enumerate(self.designs[: self._n])}
 
 
 class SizingProblem(Problem):

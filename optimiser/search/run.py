@@ -41,7 +41,7 @@ from ..catalogs import load_catalogs
 from ..design import DESIGN_KEYS, DesignBatch
 from ..evaluate import Evaluator, Settings
 from ..scenario import load_scenario
-from .front import hypervolume, nondominated
+from .front import hypervolume, merge_front
 from .problem import DesignDuplicateElimination, SizingProblem, evaluate_designs, front_values
 from .space import SearchSpace
 
@@ -174,7 +174,7 @@ class SearchRun:
                                         mating=MixedVariableMating(eliminate_duplicates=duplicates))
             algorithm.setup(problem, termination=("n_gen", 10 ** 9), seed=self.meta["seed"], verbose=False)
             self.state = SearchState(algorithm)
-        self._last_save = time.monotonic()
+        self._last_save, self._save_s = time.monotonic(), 0.0
 
     @property
     def model(self):
@@ -221,9 +221,7 @@ class SearchRun:
         designs, F, G = problem.cache.view()
         new = np.arange(seen_before, len(F))
         feasible_new = new[np.all(G[new] <= 0, axis=1)]
-        candidates = np.concatenate([st.archive, feasible_new])
-        st.archive = candidates[nondominated(F[candidates])] if len(candidates) else candidates
-        st.archive.sort()
+        st.archive = merge_front(F, st.archive, feasible_new)
         problem.cache.keep_values(st.archive)
         if st.hv_box is None and len(st.archive):
             st.hv_box = self._hv_box(F[st.archive])
@@ -270,9 +268,11 @@ class SearchRun:
 
     def save(self, status, force=False):
         """Checkpoint (at most every few seconds unless forced), history, front and run.json."""
-        if not force and time.monotonic() - self._last_save < CHECKPOINT_EVERY_S:
+        # Saving grows with the cache: keep it to a small share of the running time.
+        interval = CHECKPOINT_EVERY_S and max(CHECKPOINT_EVERY_S, 20.0 * self._save_s)
+        if not force and time.monotonic() - self._last_save < interval:
             return False
-        self._last_save = time.monotonic()
+        t0 = time.monotonic()
         atomic_write(self.dir / "checkpoint.pkl", pickle.dumps(self.state, protocol=pickle.HIGHEST_PROTOCOL))
         self._write_history()
         self._write_front()
@@ -280,6 +280,8 @@ class SearchRun:
                          evaluations=self.evaluations, elapsed_s=round(self.state.elapsed_s, 3),
                          front_size=int(len(self.state.archive)))
         atomic_write(self.dir / "run.json", json.dumps(self.meta, indent=2).encode())
+        self._last_save = time.monotonic()
+        self._save_s = self._last_save - t0
         return True
 
     def _write_history(self):
