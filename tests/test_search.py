@@ -158,5 +158,29 @@ def test_cache_checkpoint_keeps_rows_and_rebuilds_its_index(evaluator):
     rows = problem.cache.lookup(matrix, problem.evaluate_matrix)
     restored = pickle.loads(pickle.dumps(problem.cache))
     assert len(restored.F) == len(restored) == len(problem.cache)  # no empty capacity saved
-    assert restored.index == problem.cache.index
+    assert restored.index.count == problem.cache.index.count
     assert np.array_equal(restored.lookup(matrix, None), rows)  # all found: evaluate never called
+
+
+def test_row_index_agrees_with_a_dict_through_growth_and_collisions():
+    # The cache's compact index against Python's dict, the obvious independent oracle; few distinct
+    # column values make many rows share hash prefixes, and 20 batches force several rehashes.
+    from optimiser.search.problem import RowIndex
+
+    rng = np.random.default_rng(3)
+    index, reference = RowIndex(capacity=8), {}
+    store = np.empty((0, 10), dtype=np.int32)
+    for _ in range(20):
+        batch = rng.integers(0, 4, size=(700, 10)).astype(np.int32)
+        found, _ = index.find(batch, store)
+        expected = np.array([reference.get(row.tobytes(), -1) for row in batch])
+        assert np.array_equal(found, expected)
+        _, first = np.unique(batch[found < 0], axis=0, return_index=True)
+        new = batch[found < 0][np.sort(first)]
+        numbers = np.arange(len(store), len(store) + len(new))
+        store = np.vstack([store, new])
+        index.insert(new, numbers, store)
+        for row, k in zip(new, numbers):
+            reference[row.tobytes()] = k
+    found, _ = index.find(store, store)
+    assert np.array_equal(found, np.arange(len(store))) and index.count == len(reference)

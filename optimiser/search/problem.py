@@ -45,6 +45,10 @@ def front_values(evaluator):
     return (*extra, *FRONT_VALUES)
 
 
+RING_COLUMN = 3
+"""Column of the ring radius in DesignBatch.as_matrix (the only non-integer design field)."""
+
+
 def split_chunks(matrix, chunk):
     """Consecutive chunks of at most `chunk` rows (0: one chunk)."""
     if chunk <= 0 or len(matrix) <= chunk:
@@ -52,59 +56,145 @@ def split_chunks(matrix, chunk):
     return [matrix[i:i + chunk] for i in range(0, len(matrix), chunk)]
 
 
+class RowIndex:
+    """Exact map from integer rows to their numbers: open addressing on a 64-bit hash of the row,
+    every hit verified against the stored row, vectorised over a batch (no per-row Python work).
+
+    About 16 bytes a row at the table's load of at most one half: a Python dict of byte strings
+    costs ten times that, which an overnight search of millions of designs cannot afford.
+    """
+
+    def __init__(self, capacity=1 << 12):
+        self.slots = np.full(capacity, -1, dtype=np.int64)
+        self.count = 0
+
+    @staticmethod
+    def hash(codes):
+        """64-bit FNV-1a over the columns, then the splitmix64 finaliser (avalanche)."""
+        with np.errstate(over="ignore"):
+            h = np.full(len(codes), 0xCBF29CE484222325, dtype=np.uint64)
+            for column in codes.T:
+                h = (h ^ column.astype(np.uint64)) * np.uint64(0x100000001B3)
+            h = (h ^ (h >> np.uint64(30))) * np.uint64(0xBF58476D1CE4E5B9)
+            h = (h ^ (h >> np.uint64(27))) * np.uint64(0x94D049BB133111EB)
+            return h ^ (h >> np.uint64(31))
+
+    def find(self, codes, store):
+        """(row number or -1, slot where the row is or would go) for each row of `codes`."""
+        mask = len(self.slots) - 1
+        pos = (self.hash(codes) & np.uint64(mask)).astype(np.int64)
+        found = np.full(len(codes), -1, dtype=np.int64)
+        slot = np.empty(len(codes), dtype=np.int64)
+        active = np.arange(len(codes))
+        while len(active):
+            held = self.slots[pos[active]]
+            empty = held < 0
+            match = np.zeros(len(active), dtype=bool)
+            occupied = np.flatnonzero(~empty)
+            match[occupied] = np.all(store[held[occupied]] == codes[active[occupied]], axis=1)
+            found[active[match]] = held[match]
+            done = empty | match
+            slot[active[done]] = pos[active[done]]
+            active = active[~done]
+            pos[active] = (pos[active] + 1) & mask
+        return found, slot
+
+    def insert(self, codes, rows, store):
+        """Add distinct new rows `codes` (not yet present) numbered `rows`; `store[rows] == codes`."""
+        if 2 * (self.count + len(codes)) > len(self.slots):
+            self._rehash(max(2 * len(self.slots), 1 << int(np.ceil(np.log2(4 * (self.count + len(codes)))))),
+                         store)
+        pending = np.arange(len(codes))
+        while len(pending):
+            _, slot = self.find(codes[pending], store)
+            # two new rows may want one empty slot: the first takes it, the others probe again
+            _, first = np.unique(slot, return_index=True)
+            take = pending[first]
+            self.slots[slot[first]] = rows[take]
+            pending = np.setdiff1d(pending, take, assume_unique=True)
+        self.count += len(codes)
+
+    def _rehash(self, capacity, store):
+        rows = self.slots[self.slots >= 0]
+        self.slots = np.full(capacity, -1, dtype=np.int64)
+        self.count = 0
+        if len(rows):
+            self.insert(store[rows], rows, store)
+
+
 class DesignCache:
-    """Objectives and constraints of every distinct design evaluated, in order of first evaluation."""
+    """Objectives and constraints of every distinct design evaluated, in order of first evaluation.
+
+    Designs are kept as exact integer codes (catalog rows and counts; the ring radius in
+    micrometres) in int32, found through a `RowIndex`: about 176 bytes a design in all.
+    """
 
     def __init__(self, n_var, n_obj):
-        self.index = {}
-        self.designs = np.empty((0, n_var))
+        self.codes = np.empty((0, n_var), dtype=np.int32)
         self.F = np.empty((0, n_obj))   # minimisation form
         self.G = np.empty((0, len(CONSTRAINTS)))
-        self.values = {}  # cache row -> FRONT_VALUES, for feasible designs (pruned to the front by the run)
+        self.index = RowIndex()
+        self.values = {}  # cache row -> front values, for feasible designs (pruned to the front by the run)
         self._n = 0
 
     def __len__(self):
         return self._n
 
+    @staticmethod
+    def encode(matrix):
+        """Exact integer codes of DesignBatch matrices (ring radius [m] -> micrometres)."""
+        codes = np.rint(matrix).astype(np.int32)
+        codes[:, RING_COLUMN] = np.rint(matrix[:, RING_COLUMN] * 1e6).astype(np.int32)
+        return codes
+
+    @staticmethod
+    def decode(codes):
+        matrix = codes.astype(float)
+        matrix[:, RING_COLUMN] = codes[:, RING_COLUMN] / 1e6
+        return matrix
+
     def _grow(self, extra):
         if self._n + extra > len(self.F):
-            size = max(2 * len(self.F), self._n + extra, 1024)
-            for name in ("designs", "F", "G"):
+            size = max(len(self.F) + len(self.F) // 2, self._n + extra, 1024)
+            for name in ("codes", "F", "G"):
                 old = getattr(self, name)
-                new = np.empty((size, old.shape[1]))
+                new = np.empty((size, old.shape[1]), dtype=old.dtype)
                 new[: self._n] = old[: self._n]
                 setattr(self, name, new)
 
     def lookup(self, matrix, evaluate):
         """Row of each design in the cache, evaluating (in one call) those not seen before."""
-        keys = [row.tobytes() for row in matrix]
-        rows = np.fromiter((self.index.get(k, -1) for k in keys), dtype=np.int64, count=len(keys))
+        codes = self.encode(np.asarray(matrix, dtype=float))
+        rows, _ = self.index.find(codes, self.codes)
         missing = np.flatnonzero(rows < 0)
         if len(missing):
-            # A population may hold one new design twice: evaluate it once.
-            first = {}
-            for i in missing:
-                first.setdefault(keys[i], i)
-            new = np.fromiter(first.values(), dtype=np.int64, count=len(first))
+            # A population may hold one new design twice: evaluate it once, in order of appearance.
+            _, first = np.unique(codes[missing], axis=0, return_index=True)
+            new = missing[np.sort(first)]
             result = evaluate(matrix[new])
             F, G = result[0], result[1]
             self._grow(len(new))
             start = self._n
-            self.designs[start:start + len(new)] = matrix[new]
-            self.F[start:start + len(new)] = F
-            self.G[start:start + len(new)] = G
-            for j, i in enumerate(new):
-                self.index[keys[i]] = start + j
+            numbers = np.arange(start, start + len(new))
+            self.codes[numbers] = codes[new]
+            self.F[numbers] = F
+            self.G[numbers] = G
+            self.index.insert(codes[new], numbers, self.codes)
             if len(result) > 2:
                 ok = np.all(G <= 0, axis=1)
                 for j in np.flatnonzero(ok):
                     self.values[start + int(j)] = result[2][j]
             self._n += len(new)
-            rows = np.fromiter((self.index[k] for k in keys), dtype=np.int64, count=len(keys))
+            rows, _ = self.index.find(codes, self.codes)
         return rows
 
+    def designs(self, rows):
+        """DesignBatch matrices of cache rows."""
+        return self.decode(self.codes[np.asarray(rows, dtype=np.int64)])
+
     def view(self):
-        return self.designs[: self._n], self.F[: self._n], self.G[: self._n]
+        """(designs, F, G) of every row (designs rebuilt as matrices: for tests and benchmarks)."""
+        return self.designs(np.arange(self._n)), self.F[: self._n], self.G[: self._n]
 
     def keep_values(self, rows):
         """Forget the front values of every row not in `rows` (designs that left the front)."""
@@ -112,18 +202,18 @@ class DesignCache:
         self.values = {int(r): values[int(r)] for r in rows if int(r) in values}
 
     def __getstate__(self):
-        # Checkpoint only the filled rows, and not the index: it is rebuilt from the designs.
+        # Checkpoint only the filled rows, and not the index: it is rebuilt from the codes.
         state = self.__dict__.copy()
-        for name in ("designs", "F", "G"):
+        for name in ("codes", "F", "G"):
             state[name] = state[name][: self._n].copy()
         del state["index"]
         return state
 
     def __setstate__(self, state):
-        state.setdefault("values", {})  # checkpoints from before the values were kept
         self.__dict__.update(state)
-        if "index" not in state:
-            self.index = {row.tobytes(): i for i, row in enumerate(self.designs[: self._n])}
+        self.index = RowIndex()
+        if self._n:
+            self.index.insert(self.codes[: self._n], np.arange(self._n), self.codes)
 
 
 class SizingProblem(Problem):

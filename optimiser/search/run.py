@@ -77,6 +77,7 @@ class SearchState:
     history: list = field(default_factory=list)
     elapsed_s: float = 0.0
     hv_box: tuple | None = None
+    feasible: int = 0  # feasible designs among those evaluated
 
     @property
     def problem(self) -> SizingProblem:
@@ -218,9 +219,11 @@ class SearchRun:
         seen_before = self.evaluations
         st.algorithm.next()
         problem = st.problem
-        designs, F, G = problem.cache.view()
-        new = np.arange(seen_before, len(F))
-        feasible_new = new[np.all(G[new] <= 0, axis=1)]
+        cache = problem.cache
+        F = cache.F[: len(cache)]
+        new = np.arange(seen_before, len(cache))
+        feasible_new = new[np.all(cache.G[new] <= 0, axis=1)]
+        st.feasible += len(feasible_new)
         st.archive = merge_front(F, st.archive, feasible_new)
         problem.cache.keep_values(st.archive)
         if st.hv_box is None and len(st.archive):
@@ -229,7 +232,7 @@ class SearchRun:
         front_F = F[st.archive]
         row = {
             "generation": st.algorithm.n_gen - 1, "evaluations": self.evaluations,
-            "feasible": int(np.sum(np.all(G <= 0, axis=1))), "front_size": len(st.archive),
+            "feasible": st.feasible, "front_size": len(st.archive),
             "hypervolume": hypervolume(front_F, st.hv_box) if st.hv_box else 0.0,
             "elapsed_s": round(st.elapsed_s, 3),
         }
@@ -292,9 +295,8 @@ class SearchRun:
 
     def front_designs(self):
         """(ids, DesignBatch) of the archived front, ids stable for the run's life ('D' + cache row)."""
-        designs, _, _ = self.state.problem.cache.view()
         rows = self.state.archive
-        return [f"D{r}" for r in rows], DesignBatch.from_matrix(designs[rows])
+        return [f"D{r}" for r in rows], DesignBatch.from_matrix(self.state.problem.cache.designs(rows))
 
     def _front_values(self):
         """(objectives in natural sense, FRONT_VALUES) of the archive, from the cache.
@@ -306,7 +308,7 @@ class SearchRun:
         objectives = cache.F[rows] * self.state.problem.evaluator.objective_sign
         missing = [r for r in rows if int(r) not in cache.values]
         if missing:
-            _, _, V = evaluate_designs(problem.evaluator, cache.designs[np.array(missing)])
+            _, _, V = evaluate_designs(problem.evaluator, cache.designs(missing))
             cache.values.update({int(r): V[j] for j, r in enumerate(missing)})
         names = front_values(self.state.problem.evaluator)
         values = np.array([cache.values[int(r)] for r in rows]).reshape(len(rows), len(names))
