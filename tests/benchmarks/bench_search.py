@@ -102,13 +102,12 @@ def expected_size(space, evaluator):
 
 
 def random_genotypes(space, n, rng):
-    return {name: rng.choice(var.options, n) if hasattr(var, "options")
-            else rng.integers(var.bounds[0], var.bounds[1] + 1, n) for name, var in space.variables.items()}
+    return space.random_columns(n, rng)
 
 
 def exact_front(chunk=20000):
     from optimiser.catalogs import load_catalogs
-    from optimiser.evaluate import CONSTRAINTS, OBJECTIVE_SIGN, Evaluator
+    from optimiser.evaluate import CONSTRAINTS, Evaluator
     from optimiser.scenario import load_scenario
     from optimiser.search.front import hv_box, hypervolume, nondominated
     from optimiser.search.space import SearchSpace
@@ -130,8 +129,10 @@ def exact_front(chunk=20000):
     n_geno = 200_000
     decoded = space.decode_columns(random_genotypes(space, n_geno, rng)).as_matrix()
     outside = sum(k not in index for k in _row_keys(decoded))
-    raw = [(r, k, p) for r in space.layout_rows for k in range(1, space.max_multiple + 1)
-           for p in range(1, space.max_paths + 1)]
+    var = space.variables
+    raw = [(r, k, p) for r in space.layout_rows
+           for k in range(var["multiple"].bounds[0], var["multiple"].bounds[1] + 1)
+           for p in range(var["paths"].bounds[0], var["paths"].bounds[1] + 1)]
     cols = {name: np.zeros(len(raw), np.int64) for name in space.variables}
     cols["layout"], cols["multiple"], cols["paths"] = (np.array(c) for c in zip(*raw))
     image = space.decode_columns(cols)
@@ -146,7 +147,7 @@ def exact_front(chunk=20000):
     F, G = np.empty((n, 4)), np.empty((n, len(CONSTRAINTS)))
     for s in range(0, n, chunk):
         ev = evaluator.evaluate(batch.take(slice(s, s + chunk)))
-        F[s:s + chunk] = ev.objectives * OBJECTIVE_SIGN
+        F[s:s + chunk] = ev.objectives * evaluator.objective_sign
         G[s:s + chunk] = ev.constraints
     t_eval = time.perf_counter() - t0
     feasible = np.all(G <= 0, axis=1)
@@ -335,7 +336,7 @@ def memory_child(seconds, population, out_path):
                 samples.append({"generation": row["generation"], "evaluations": row["evaluations"],
                                 "elapsed_s": row["elapsed_s"], "rss_bytes": _rss_bytes(),
                                 "peak_rss_so_far_bytes": _maxrss_bytes(), "front_size": row["front_size"],
-                                "cache_array_bytes": int(cache.designs.nbytes + cache.F.nbytes + cache.G.nbytes)})
+                                "cache_array_bytes": int(cache.codes.nbytes + cache.F.nbytes + cache.G.nbytes + cache.index.slots.nbytes)})
 
         run_search(run, on_generation=on_generation)
         peak_search = _maxrss_bytes()
