@@ -253,22 +253,10 @@ def thermal_network(
     return ThermalNetwork(*(np.array(x) for x in np.broadcast_arrays(r_cf, r_fr, r_ra, r_fa, r_total)))
 
 
-def stator_thermal_resistance(
-    speed_rpm,
-    ring_inner_radius_m,
-    ring_outer_radius_m,
-    stator_outer_radius_m,
-    stator_thickness_m,
-    resin_skin_m,
-    resin_conductivity_W_mK,
-    running_clearance_m,
-    air_C,
-    **options,
-):
+def stator_thermal_resistance(*args, **kwargs):
     """Thermal resistance from the coils (mean temperature) to bilge air.
 
-    Parameters are those of :func:`thermal_network` (``options`` are its
-    optional keywords).
+    Parameters are those of :func:`thermal_network` (positional and keyword alike).
 
     Returns
     -------
@@ -280,18 +268,7 @@ def stator_thermal_resistance(
     ----------
     See :func:`thermal_network`.
     """
-    return thermal_network(
-        speed_rpm,
-        ring_inner_radius_m,
-        ring_outer_radius_m,
-        stator_outer_radius_m,
-        stator_thickness_m,
-        resin_skin_m,
-        resin_conductivity_W_mK,
-        running_clearance_m,
-        air_C,
-        **options,
-    ).coil_to_air_K_W
+    return thermal_network(*args, **kwargs).coil_to_air_K_W
 
 
 def magnet_temperature(coil_temperature_C, air_C, network, rotor_heat_W=0.0):
