@@ -61,10 +61,6 @@ class DesignBatch:
         return cls(**{f.name: matrix[:, i] if f.name == "ring_radius_m" else np.rint(matrix[:, i])
                       for i, f in enumerate(fields(cls))})
 
-    @classmethod
-    def concat(cls, batches) -> "DesignBatch":
-        return cls(**{f.name: np.concatenate([getattr(b, f.name) for b in batches]) for f in fields(cls)})
-
     def records(self, catalogs) -> list[dict]:
         """Designs as design-file dictionaries (ids and mm), for tables, CSV and design files."""
         m, lay, d, w = (catalogs.magnets["id"].to_numpy(), catalogs.layouts["id"].to_numpy(),

@@ -390,7 +390,8 @@ class Evaluator:
         shaft_W = bridge.electrical_power_W + (copper_W - bridge.copper_loss_W) + eddy_W + windage_W + bearing_W
         torque = np.where(omega > 0, shaft_W / np.where(omega > 0, omega, 1.0), sc.bearing_drag_Nm)
         efficiency = np.where(shaft_W > 0, bridge.battery_power_W / np.where(shaft_W > 0, shaft_W, 1.0), 0.0)
-        cut_in = (sc.battery_charging_V + 2.0 * sc.diode_forward_drop_V) / (line_peak_per_rpm_per_T * br)
+        cut_in = rectifier.cut_in_speed_rpm(line_peak_per_rpm_per_T * br, sc.battery_charging_V,
+                                            sc.diode_forward_drop_V)
         b_disc = fieldmodel.back_iron_flux_density(phi_unit * br, disc["thickness_m"], mag["length_m"])
         magnet_cost = 2.0 * poles * mag["price_each"]
         copper_kg = geometry.copper_mass_kg(total_wire, wire["bare_diameter_m"])

@@ -186,7 +186,3 @@ def fit_margins(ring_radius_m, magnet_length_m, magnet_width_m, magnet_thickness
     return np.stack(np.broadcast_arrays(overlap, coils_fit, beyond_disc, beyond_envelope,
                                         beyond_axial, clash), axis=-1)
 
-
-def fit_problems(margins):
-    """User-facing reasons of the failed fit checks of ONE design (margins of shape (6,))."""
-    return [reason for (_, reason), m in zip(FIT_CHECKS, np.asarray(margins)) if m > 0]

@@ -30,9 +30,7 @@ __all__ = [
     "peak_line_emf",
     "delta_to_star",
     "delta_circulating_current",
-    "delta_circulating_current_rms",
     "cut_in_speed_rpm",
-    "cut_in_speed",
 ]
 
 
@@ -682,11 +680,6 @@ def delta_circulating_from_spectrum(E0, R_delta, L_zero, omega_e):
     return i_rms, 3.0 * np.asarray(R_delta, dtype=float) * i_rms**2
 
 
-def delta_circulating_current_rms(e_delta, R_delta, L_delta, omega_e, L_zero=None):
-    """rms circulating current of a delta winding [A]; see `delta_circulating_current`."""
-    return delta_circulating_current(e_delta, R_delta, L_delta, omega_e, L_zero)[0]
-
-
 def cut_in_speed_rpm(line_peak_emf_per_rpm, V_batt, V_diode):
     """Shaft speed at which the bridge starts charging: peak line EMF = V_b + 2 V_d.
 
@@ -720,5 +713,3 @@ def cut_in_speed_rpm(line_peak_emf_per_rpm, V_batt, V_diode):
     V0 = np.asarray(V_batt, dtype=float) + 2.0 * np.asarray(V_diode, dtype=float)
     return V0 / np.asarray(line_peak_emf_per_rpm, dtype=float)
 
-
-cut_in_speed = cut_in_speed_rpm

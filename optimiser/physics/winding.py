@@ -109,12 +109,6 @@ class Winding:
         onehot = self.coil_phase[None, :] == np.arange(3)[:, None]
         return (onehot.astype(float) @ terms) / self.coils_per_phase
 
-    def harmonic_winding_factors(self, orders) -> np.ndarray:
-        """Classical k_w,n = |K[A, n]| |sin(n p pi / Q)| (one-coil-pitch span), shape (H,) [-]."""
-        n = np.atleast_1d(np.asarray(orders))
-        return np.abs(self.phase_factors(n)[0]) * np.abs(np.sin(n * self.pole_pairs * np.pi
-                                                                / self.coils))
-
 
 def star_of_slots(coils: int, poles: int) -> Winding:
     """Assign Q concentrated coils under 2p poles to three phases by the star of slots.
