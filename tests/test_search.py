@@ -162,6 +162,28 @@ def test_cache_checkpoint_keeps_rows_and_rebuilds_its_index(evaluator):
     assert np.array_equal(restored.lookup(matrix, None), rows)  # all found: evaluate never called
 
 
+def test_cache_keeps_pymoos_violation_and_feasibility(evaluator):
+    # pymoo's own calc_cv (pymoo.core.individual, default config) is the oracle: the one
+    # column kept must equal it,
+    # be 0 exactly for the designs the evaluator calls feasible, and an old checkpoint holding
+    # every constraint must come back as that column.
+    import pickle
+
+    from pymoo.core.individual import calc_cv
+
+    space = SearchSpace(evaluator)
+    problem = SizingProblem(space, evaluator)
+    matrix = space.sample(400, np.random.default_rng(5)).as_matrix()
+    rows = problem.cache.lookup(matrix, problem.evaluate_matrix)
+    _, G = problem.evaluate_matrix(matrix)
+    np.testing.assert_array_equal(problem.cache.G[rows, 0], calc_cv(G=G))
+    assert np.array_equal(problem.cache.G[rows, 0] <= 0, np.all(G <= 0, axis=1))
+    old = pickle.loads(pickle.dumps(problem.cache))
+    old.G = np.empty((len(old), G.shape[1]))
+    old.G[rows] = G
+    np.testing.assert_array_equal(pickle.loads(pickle.dumps(old)).G, problem.cache.G[: len(problem.cache)])
+
+
 def test_row_index_agrees_with_a_dict_through_growth_and_collisions():
     # The cache's compact index against Python's dict, the obvious independent oracle; few distinct
     # column values make many rows share hash prefixes, and 20 batches force several rehashes.

@@ -19,7 +19,7 @@ from pymoo.core.duplicate import DuplicateElimination
 from pymoo.core.problem import Problem
 
 from ..design import DesignBatch
-from ..evaluate import CONSTRAINTS, OBJECTIVES
+from ..evaluate import OBJECTIVES
 
 FRONT_VALUES = ("emf_line_rms_per_rpm_V", "cut_in_rpm", "battery_power_W", "efficiency",
                 "coil_thickness_m", "face_gap_m", "copper_mass_kg", "wire_cost", "disc_cost",
@@ -122,17 +122,28 @@ class RowIndex:
             self.insert(store[rows], rows, store)
 
 
+def violation(G):
+    """pymoo's constraint violation of rows of G (<= 0 satisfied): the sum of the positive parts.
+
+    0 exactly when every constraint holds. The search needs no more than this (feasible first, then
+    the least violation), so the cache keeps one column instead of one per constraint.
+    """
+    return np.sum(np.maximum(0.0, np.asarray(G, dtype=float)), axis=1, keepdims=True)
+
+
 class DesignCache:
-    """Objectives and constraints of every distinct design evaluated, in order of first evaluation.
+    """Objectives and constraint violation of every distinct design evaluated, in order of first
+    evaluation.
 
     Designs are kept as exact integer codes (catalog rows and counts; the ring radius in
-    micrometres) in int32, found through a `RowIndex`: about 176 bytes a design in all.
+    micrometres) in int32, found through a `RowIndex`: about 96 bytes a design in all
+    (40 codes, 32 objectives, 8 violation, 16 index), before the arrays' growth margin.
     """
 
     def __init__(self, n_var, n_obj):
         self.codes = np.empty((0, n_var), dtype=np.int32)
         self.F = np.empty((0, n_obj))   # minimisation form
-        self.G = np.empty((0, len(CONSTRAINTS)))
+        self.G = np.empty((0, 1))       # constraint violation, see `violation` (0: feasible)
         self.index = RowIndex()
         self.values = {}  # cache row -> front values, for feasible designs (pruned to the front by the run)
         self._n = 0
@@ -178,7 +189,7 @@ class DesignCache:
             numbers = np.arange(start, start + len(new))
             self.codes[numbers] = codes[new]
             self.F[numbers] = F
-            self.G[numbers] = G
+            self.G[numbers] = violation(G)
             self.index.insert(codes[new], numbers, self.codes)
             if len(result) > 2:
                 ok = np.all(G <= 0, axis=1)
@@ -193,7 +204,7 @@ class DesignCache:
         return self.decode(self.codes[np.asarray(rows, dtype=np.int64)])
 
     def view(self):
-        """(designs, F, G) of every row (designs rebuilt as matrices: for tests and benchmarks)."""
+        """(designs, F, violation) of every row (designs rebuilt as matrices: for tests and benchmarks)."""
         return self.designs(np.arange(self._n)), self.F[: self._n], self.G[: self._n]
 
     def keep_values(self, rows):
@@ -210,6 +221,8 @@ class DesignCache:
         return state
 
     def __setstate__(self, state):
+        if state["G"].shape[1] > 1:  # a checkpoint from when every constraint was kept
+            state["G"] = violation(state["G"])
         self.__dict__.update(state)
         self.index = RowIndex()
         if self._n:
@@ -221,7 +234,8 @@ class SizingProblem(Problem):
     temperature minimised) under the fit, thermal, saturation and cut-in constraints."""
 
     def __init__(self, space, evaluator, chunk=0):
-        super().__init__(vars=space.variables, n_obj=len(evaluator.objectives), n_ieq_constr=len(CONSTRAINTS))
+        # One constraint for pymoo: the violation of all of them (see `violation`).
+        super().__init__(vars=space.variables, n_obj=len(evaluator.objectives), n_ieq_constr=1)
         self.space, self.evaluator = space, evaluator
         self.cache = DesignCache(n_var=10, n_obj=len(evaluator.objectives))
         self.chunk = int(chunk)  # designs per chunk, fixed for the run's life (0: whole population)
@@ -257,7 +271,11 @@ class SizingProblem(Problem):
         matrix = self.space.decode(X).as_matrix()
         rows = self.cache.lookup(matrix, self.evaluate_new)
         out["F"] = self.cache.F[rows]
-        out["G"] = self.cache.G[rows]
+        # n_ieq_constr is 1, or one per constraint in a run checkpointed before the cache kept one
+        # column: zeros beside the violation give pymoo the same sum.
+        G = np.zeros((len(rows), self.n_ieq_constr))
+        G[:, 0] = self.cache.G[rows, 0]
+        out["G"] = G
 
 
 def _row_keys(matrix):

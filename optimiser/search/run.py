@@ -35,13 +35,14 @@ from pathlib import Path
 
 import numpy as np
 from pymoo.algorithms.moo.nsga2 import RankAndCrowding
-from pymoo.core.mixed import MixedVariableGA, MixedVariableMating
+from pymoo.core.mixed import MixedVariableGA
 
 from ..catalogs import load_catalogs
 from ..design import DESIGN_KEYS, DesignBatch
 from ..evaluate import Evaluator, Settings
 from ..scenario import load_scenario
 from .front import hypervolume, merge_front
+from .mating import FrontFillMating
 from .problem import DesignDuplicateElimination, SizingProblem, evaluate_designs, front_values
 from .space import SearchSpace
 
@@ -90,10 +91,20 @@ def _sha256(path):
 
 def atomic_write(path, data: bytes):
     """Write bytes to `path` so that a crash leaves either the old or the new file, never half."""
+    _atomic(path, lambda fh: fh.write(data))
+
+
+def atomic_pickle(path, obj):
+    """`atomic_write` of pickle.dumps(obj), streamed: no second copy of a large state in memory."""
+    _atomic(path, lambda fh: pickle.dump(obj, fh, protocol=pickle.HIGHEST_PROTOCOL))
+
+
+def _atomic(path, write):
+    """Temporary file beside `path`, `write(fh)`, fsync, rename over `path`, fsync the folder."""
     path = Path(path)
     tmp = path.with_name(path.name + ".tmp")
     with open(tmp, "wb") as fh:
-        fh.write(data)
+        write(fh)
         fh.flush()
         os.fsync(fh.fileno())
     os.replace(tmp, path)
@@ -172,7 +183,7 @@ class SearchRun:
             duplicates = DesignDuplicateElimination(space)
             algorithm = MixedVariableGA(pop_size=self.meta["population"], survival=RankAndCrowding(),
                                         eliminate_duplicates=duplicates,
-                                        mating=MixedVariableMating(eliminate_duplicates=duplicates))
+                                        mating=FrontFillMating(space, eliminate_duplicates=duplicates))
             algorithm.setup(problem, termination=("n_gen", 10 ** 9), seed=self.meta["seed"], verbose=False)
             self.state = SearchState(algorithm)
         self._last_save, self._save_s = time.monotonic(), 0.0
@@ -207,6 +218,15 @@ class SearchRun:
         return bool((b.evaluations and self.evaluations >= b.evaluations)
                     or (b.seconds and self.state.elapsed_s >= b.seconds))
 
+    def progress(self):
+        """Share of the budget spent (0-1; the larger of evaluations and time; 0 without a budget)."""
+        b, spent = self.budget, [0.0]
+        if b.evaluations:
+            spent.append(self.evaluations / b.evaluations)
+        if b.seconds:
+            spent.append(self.state.elapsed_s / b.seconds)
+        return min(max(spent), 1.0)
+
     def set_budget(self, budget: Budget):
         self.budget = budget
         self.meta["budget"] = asdict(budget)
@@ -217,12 +237,15 @@ class SearchRun:
         t0 = time.monotonic()
         st = self.state
         seen_before = self.evaluations
+        mating = st.algorithm.mating
+        if isinstance(mating, FrontFillMating):  # (a run checkpointed before it existed: GA alone)
+            mating.archive, mating.progress = st.archive, self.progress()
         st.algorithm.next()
         problem = st.problem
         cache = problem.cache
         F = cache.F[: len(cache)]
         new = np.arange(seen_before, len(cache))
-        feasible_new = new[np.all(cache.G[new] <= 0, axis=1)]
+        feasible_new = new[cache.G[new, 0] <= 0]
         st.feasible += len(feasible_new)
         st.archive = merge_front(F, st.archive, feasible_new)
         problem.cache.keep_values(st.archive)
@@ -276,7 +299,7 @@ class SearchRun:
         if not force and time.monotonic() - self._last_save < interval:
             return False
         t0 = time.monotonic()
-        atomic_write(self.dir / "checkpoint.pkl", pickle.dumps(self.state, protocol=pickle.HIGHEST_PROTOCOL))
+        atomic_pickle(self.dir / "checkpoint.pkl", self.state)
         self._write_history()
         self._write_front()
         self.meta.update(status=status, generations=len(self.state.history),

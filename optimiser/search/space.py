@@ -80,6 +80,20 @@ class SearchSpace:
                            disc=cols["disc"], wire=cols["wire"], strands=cols["strands"],
                            turns=cols["turns"], parallel_paths=paths, connection=cols["connection"])
 
+    def genotypes(self, matrix) -> list[dict]:
+        """pymoo genotypes (dicts of VARIABLES) of designs given as DesignBatch matrix rows.
+
+        The inverse of `decode_columns` on designs of this space: an allowed multiple and number
+        of paths decode to themselves, and the ring radius back to its step index.
+        """
+        d = DesignBatch.from_matrix(matrix)
+        cols = {"magnet": d.magnet, "layout": d.layout, "multiple": d.multiple,
+                "ring": np.rint((d.ring_radius_m - self.ring_min) / self.ring_step), "disc": d.disc,
+                "wire": d.wire, "strands": d.strands, "turns": d.turns, "paths": d.parallel_paths,
+                "connection": d.connection}
+        cols = {name: np.asarray(c).astype(np.int64).tolist() for name, c in cols.items()}
+        return [dict(zip(VARIABLES, values)) for values in zip(*(cols[name] for name in VARIABLES))]
+
     def enumerate(self) -> DesignBatch:
         """Every distinct design of the space (for benchmarks on small catalogs: it grows fast)."""
         windings = [(r, k, p) for r in self.layout_rows for k in self.multiples[r]
