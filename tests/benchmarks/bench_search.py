@@ -3,6 +3,7 @@
     python tests/benchmarks/bench_search.py            # full: pop 40/100/200 x 5 seeds to 4 %, 4 min memory run
     python tests/benchmarks/bench_search.py --quick    # a few minutes: pop 100 x 2 seeds, 1 min memory run
     python tests/benchmarks/bench_search.py --hours 1  # memory section measured over a real hour
+    python tests/benchmarks/bench_search.py --memory-only --hours 1   # that hour alone
 
 Prints one JSON object (and writes it to --out if given). Sections:
 
@@ -418,6 +419,7 @@ def main(argv=None):
     p.add_argument("--populations", default=None, help="comma-separated population sizes")
     p.add_argument("--seeds", type=int, default=None)
     p.add_argument("--memory-seconds", type=float, default=None)
+    p.add_argument("--memory-only", action="store_true", help="only the memory section (c)")
     p.add_argument("--out", type=Path, default=None, help="also write the JSON here")
     p.add_argument("--memory-child", type=float, default=None, help=argparse.SUPPRESS)
     p.add_argument("--population", type=int, default=100, help=argparse.SUPPRESS)
@@ -432,7 +434,22 @@ def main(argv=None):
     mem_s = args.hours * 3600.0 if args.hours else (args.memory_seconds or (60.0 if args.quick else 240.0))
     max_fraction = max(FRACTIONS) if not args.quick else TARGET_BUDGET
     t0 = time.perf_counter()
-    result = {"benchmark": "afpm search", "mode": "quick" if args.quick else "full", "machine": machine()}
+    mode = "memory only" if args.memory_only else "quick" if args.quick else "full"
+    result = {"benchmark": "afpm search", "mode": mode, "machine": machine()}
+    if not args.memory_only:
+        result.update(search_sections(pops, seeds, max_fraction))
+    result["memory"] = memory_section(mem_s, 100, args.hours)
+    result["machine"]["load_average_at_end"] = [round(x, 2) for x in os.getloadavg()]
+    result["total_s"] = round(time.perf_counter() - t0, 1)
+    text = json.dumps(result, indent=1, default=lambda o: o.item() if hasattr(o, "item") else str(o))
+    if args.out:
+        args.out.write_text(text + "\n")
+    print(text)
+
+
+def search_sections(pops, seeds, max_fraction):
+    """Sections (a) exact front, GA and target, and (b) random sampling."""
+    result = {}
     exact_report, exact = exact_front()
     result["exact"] = exact_report
     print(f"exact: {exact['n']} designs, front {len(exact['front'])}", file=sys.stderr, flush=True)
@@ -441,17 +458,13 @@ def main(argv=None):
     key = str(TARGET_BUDGET)
     result["target"] = {
         "hv_fraction": TARGET_FRACTION, "at_fraction_of_enumeration": TARGET_BUDGET,
-        "met_by_population": {pop: bool(s[key]["hv_fraction"]["min"] >= TARGET_FRACTION)
+        "met_by_population": {pop: bool(s[key]["hv_fraction"]["mean"] >= TARGET_FRACTION)
                               for pop, s in result["ga"]["summary"].items() if key in s},
-        "criterion": "min over seeds of the HV fraction at 2 % of the enumeration's evaluations"}
-    del exact
-    result["memory"] = memory_section(mem_s, 100, args.hours)
-    result["machine"]["load_average_at_end"] = [round(x, 2) for x in os.getloadavg()]
-    result["total_s"] = round(time.perf_counter() - t0, 1)
-    text = json.dumps(result, indent=1, default=lambda o: o.item() if hasattr(o, "item") else str(o))
-    if args.out:
-        args.out.write_text(text + "\n")
-    print(text)
+        "criterion": "mean over seeds of the HV fraction at 2 % of the enumeration's evaluations "
+                     "(the issue's wording)",
+        "met_by_every_seed": {pop: bool(s[key]["hv_fraction"]["min"] >= TARGET_FRACTION)
+                              for pop, s in result["ga"]["summary"].items() if key in s}}
+    return result
 
 
 if __name__ == "__main__":
