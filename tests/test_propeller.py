@@ -190,7 +190,7 @@ def test_free_wheel_below_pitch_speed():
 
 @pytest.mark.xfail(strict=True, reason=(
     "the BEM model free-wheels this propeller at about 410/500/580 rpm at 5/6/7 kn (0.25 N m bearing "
-    "drag), roughly 0.7 x the pitch speed; common practice quotes 150-250 rpm. Published open-water "
+    "drag), about 0.85 of the rpm at which the pitch screws through the inflow; common practice quotes 150-250 rpm. Published open-water "
     "data side with the model: the Wageningen B-series (Oosterveld & van Oossanen 1975) crosses "
     "K_Q = 0 at J = 0.87 for this propeller, i.e. 390/470/550 rpm (test_propeller_bseries.py). "
     "Not tuned; the common-practice range would need a shaft-line drag near the propeller's "

@@ -22,11 +22,15 @@ exploit split by budget is our own choice.
 
 from __future__ import annotations
 
+from dataclasses import fields
+
 import numpy as np
 from pymoo.core.mixed import MixedVariableMating
 from pymoo.core.population import Population
 
-TURNS_COLUMN = 7
+from ..design import DesignBatch
+
+TURNS_COLUMN = [f.name for f in fields(DesignBatch)].index("turns")
 """Column of the turns per coil in DesignBatch.as_matrix and the cache's codes."""
 
 

@@ -420,6 +420,7 @@ def main(argv=None):
     p.add_argument("--seeds", type=int, default=None)
     p.add_argument("--memory-seconds", type=float, default=None)
     p.add_argument("--memory-only", action="store_true", help="only the memory section (c)")
+    p.add_argument("--no-memory", action="store_true", help="sections (a) and (b) only")
     p.add_argument("--out", type=Path, default=None, help="also write the JSON here")
     p.add_argument("--memory-child", type=float, default=None, help=argparse.SUPPRESS)
     p.add_argument("--population", type=int, default=100, help=argparse.SUPPRESS)
@@ -438,7 +439,8 @@ def main(argv=None):
     result = {"benchmark": "afpm search", "mode": mode, "machine": machine()}
     if not args.memory_only:
         result.update(search_sections(pops, seeds, max_fraction))
-    result["memory"] = memory_section(mem_s, 100, args.hours)
+    if not args.no_memory:
+        result["memory"] = memory_section(mem_s, 100, args.hours)
     result["machine"]["load_average_at_end"] = [round(x, 2) for x in os.getloadavg()]
     result["total_s"] = round(time.perf_counter() - t0, 1)
     text = json.dumps(result, indent=1, default=lambda o: o.item() if hasattr(o, "item") else str(o))
@@ -455,15 +457,24 @@ def search_sections(pops, seeds, max_fraction):
     print(f"exact: {exact['n']} designs, front {len(exact['front'])}", file=sys.stderr, flush=True)
     result["ga"] = ga_section(exact, pops, seeds, max_fraction)
     result["random"] = random_section(exact, seeds)
+    # The search plans by its budget (the fill-in of the front starts at 40 % of it), so the target
+    # is judged on runs whose budget IS 2 % of the enumeration, not on the 2 % point of longer runs.
     key = str(TARGET_BUDGET)
+    target_runs = result["ga"] if max_fraction == TARGET_BUDGET else \
+        ga_section(exact, [p for p in pops if p == 100] or pops[:1], seeds, TARGET_BUDGET)
     result["target"] = {
         "hv_fraction": TARGET_FRACTION, "at_fraction_of_enumeration": TARGET_BUDGET,
+        "runs": "budget = %g %% of the enumeration" % (100 * TARGET_BUDGET),
+        "hv_fraction_by_population": {pop: s[key]["hv_fraction"] for pop, s in target_runs["summary"].items()},
+        "per_seed": {str(r["population"]): [] for r in target_runs["runs"]},
         "met_by_population": {pop: bool(s[key]["hv_fraction"]["mean"] >= TARGET_FRACTION)
-                              for pop, s in result["ga"]["summary"].items() if key in s},
+                              for pop, s in target_runs["summary"].items()},
         "criterion": "mean over seeds of the HV fraction at 2 % of the enumeration's evaluations "
                      "(the issue's wording)",
         "met_by_every_seed": {pop: bool(s[key]["hv_fraction"]["min"] >= TARGET_FRACTION)
-                              for pop, s in result["ga"]["summary"].items() if key in s}}
+                              for pop, s in target_runs["summary"].items()}}
+    for r in target_runs["runs"]:
+        result["target"]["per_seed"][str(r["population"])].append(r["by_fraction"][key]["hv_fraction"])
     return result
 
 
