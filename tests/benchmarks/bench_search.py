@@ -39,6 +39,8 @@ from pathlib import Path
 
 import numpy as np
 
+from optimiser.search.mating import FrontFillMating
+
 HERE = Path(__file__).resolve().parent
 ROOT = HERE.parent.parent
 DATA = HERE / "data"
@@ -83,7 +85,12 @@ def _code_version():
 
 # --- (a) exact front ------------------------------------------------------------------------------
 def _row_keys(matrix):
-    return [row.tobytes() for row in np.ascontiguousarray(matrix, dtype=float)]
+    """One key per design: the bytes of its exact integer codes (DesignCache.encode), so a ring
+    radius rebuilt from micrometres (0.1) and one summed from its steps (0.09999999999999999)
+    are the same design."""
+    from optimiser.search.problem import DesignCache
+
+    return [row.tobytes() for row in DesignCache.encode(np.asarray(matrix, dtype=float))]
 
 
 def expected_size(space, evaluator):
@@ -212,6 +219,9 @@ def ga_run(exact, population, seed, budget, workdir):
     # Map the run's designs onto the enumeration: each must be there, with the same objectives.
     rows = np.fromiter((exact["index"].get(k, -1) for k in _row_keys(designs)), np.int64, len(designs))
     inside = bool(np.all(rows >= 0))
+    if not inside:  # a design the enumeration lacks: the fractions below would be wrong
+        raise SystemExit(f"ga run pop {population} seed {seed}: {int(np.sum(rows < 0))} designs "
+                         "not found in the enumeration")
     max_diff = float(np.max(np.abs(exact["F"][rows[rows >= 0]] - F[rows >= 0]))) if len(F) else 0.0
     feasible_run = np.all(G <= 0, axis=1)
     out = {"population": population, "seed": seed, "status": status, "evaluations": len(F),
@@ -421,6 +431,8 @@ def main(argv=None):
     p.add_argument("--memory-seconds", type=float, default=None)
     p.add_argument("--memory-only", action="store_true", help="only the memory section (c)")
     p.add_argument("--no-memory", action="store_true", help="sections (a) and (b) only")
+    p.add_argument("--ga-alone", action="store_true",
+                   help="for comparison: never fill in the front along the turns (search/mating.py)")
     p.add_argument("--out", type=Path, default=None, help="also write the JSON here")
     p.add_argument("--memory-child", type=float, default=None, help=argparse.SUPPRESS)
     p.add_argument("--population", type=int, default=100, help=argparse.SUPPRESS)
@@ -437,6 +449,9 @@ def main(argv=None):
     t0 = time.perf_counter()
     mode = "memory only" if args.memory_only else "quick" if args.quick else "full"
     result = {"benchmark": "afpm search", "mode": mode, "machine": machine()}
+    if args.ga_alone:
+        _ga_alone()
+        result["mode"] += ", GA alone (no fill-in along the turns)"
     if not args.memory_only:
         result.update(search_sections(pops, seeds, max_fraction))
     if not args.no_memory:
@@ -447,6 +462,20 @@ def main(argv=None):
     if args.out:
         args.out.write_text(text + "\n")
     print(text)
+
+
+class GAAlone(FrontFillMating):
+    """The search's mating with the fill-in never starting: the GA alone, for comparison."""
+
+    def __init__(self, space, **kwargs):
+        super().__init__(space, fill_after=float("inf"), **kwargs)
+
+
+def _ga_alone():
+    """Make new runs in this process use `GAAlone` (module-level: checkpoints pickle it)."""
+    import optimiser.search.run as run_module
+
+    run_module.FrontFillMating = GAAlone
 
 
 def search_sections(pops, seeds, max_fraction):
