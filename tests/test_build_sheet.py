@@ -165,6 +165,9 @@ def test_reference_recheck_beside_fast_model(picked):
         assert float(rows[1][1]) == pytest.approx(float(row["charge_current_A"]), abs=6e-4)
         assert float(rows[2][1]) == pytest.approx(float(row["drag_torque_Nm"]), abs=6e-4)
         for r in rows:
+            if float(r[1]) == 0.0:  # prints as zero (a design at cut-in): no percent difference
+                assert r[3] == "-"
+                continue
             fast, ref, diff = float(r[1]), float(r[2]), float(r[3])
             half = 0.5 * 10.0 ** -len(r[1].split(".")[1])  # half a unit of the printed last digit
             tol = 0.05 + 100 * half * (1 / abs(fast) + abs(ref) / fast ** 2)  # propagated rounding

@@ -355,7 +355,9 @@ def _recheck(run, one, fast_sail, rep):
     rows = []
     for label, key, fast, scale, unit, digits in items:
         reference = float(ref[key][0]) * scale
-        diff = (reference - fast) / fast * 100.0 if fast else float("nan")
+        # A value that prints as zero (e.g. the charge current of a design just at cut-in) has
+        # no meaningful percent difference.
+        diff = (reference - fast) / fast * 100.0 if abs(fast) >= 0.5 * 10.0 ** -digits else float("nan")
         rows.append([f"{label} [{unit}]", f"{fast:.{digits}f}", f"{reference:.{digits}f}",
                      f"{diff:+.1f}" if math.isfinite(diff) else "-"])
     return Table([f"At {run.scenario.sailing_rpm:g} rpm", "fast model", "reference model",
