@@ -206,3 +206,24 @@ def test_row_index_agrees_with_a_dict_through_growth_and_collisions():
             reference[row.tobytes()] = k
     found, _ = index.find(store, store)
     assert np.array_equal(found, np.arange(len(store))) and index.count == len(reference)
+
+
+def test_hypervolume_of_a_large_front_is_carried_forward(tmp_path, monkeypatch):
+    # With few points per recomputation every archive counts as "large": the history must say
+    # from which generation each value is, stay within the recomputation interval, and the fresh
+    # values never fall (the archive only improves inside a fixed box).
+    import optimiser.search.run as run_module
+
+    monkeypatch.setattr(run_module, "HV_POINTS_PER_GENERATION", 4)
+    rows = list(csv.DictReader(open(_run(tmp_path, "hv", seed=3) / "history.csv")))
+    gen = np.array([int(r["generation"]) for r in rows])
+    at = np.array([int(r["hypervolume_generation"]) for r in rows])
+    hv = np.array([float(r["hypervolume"]) for r in rows])
+    size = np.array([int(r["front_size"]) for r in rows])
+    computed = at >= 0
+    assert np.all(at <= gen) and np.any(computed & (at < gen))
+    assert np.all((gen - at)[computed] < np.maximum(1, size[computed] // 4))
+    fresh = computed & (at == gen)
+    assert np.all(np.diff(hv[fresh]) >= -1e-12) and hv[fresh][-1] > 0
+    for g in np.unique(at[computed]):
+        assert len(set(hv[at == g])) == 1

@@ -46,6 +46,10 @@ from .mating import FrontFillMating
 from .problem import DesignDuplicateElimination, SizingProblem, evaluate_designs, front_values
 from .space import SearchSpace
 
+HV_POINTS_PER_GENERATION = 1000
+"""The archive's hypervolume is recomputed every max(1, front size // this) generations: in four
+objectives it costs about 0.14 s for 16 000 points, more than a generation's evaluations, so a
+large front's value is carried forward (history.csv says from which generation)."""
 CHECKPOINT_EVERY_S = float(os.environ.get("AFPM_CHECKPOINT_S", "5"))
 """Seconds between checkpoints (and front/history rewrites); AFPM_CHECKPOINT_S=0 saves every generation."""
 DEFAULT_CHUNK = {"fast": 256, "reference": 4}
@@ -79,6 +83,8 @@ class SearchState:
     elapsed_s: float = 0.0
     hv_box: tuple | None = None
     feasible: int = 0  # feasible designs among those evaluated
+    hv_value: float = 0.0  # hypervolume of the archive when last computed ...
+    hv_generation: int = -1  # ... at this generation (see HV_POINTS_PER_GENERATION)
 
     @property
     def problem(self) -> SizingProblem:
@@ -251,12 +257,15 @@ class SearchRun:
         problem.cache.keep_values(st.archive)
         if st.hv_box is None and len(st.archive):
             st.hv_box = self._hv_box(F[st.archive])
-        st.elapsed_s += time.monotonic() - t0
         front_F = F[st.archive]
+        generation = st.algorithm.n_gen - 1
+        if st.hv_box and generation - st.hv_generation >= max(1, len(front_F) // HV_POINTS_PER_GENERATION):
+            st.hv_value, st.hv_generation = hypervolume(front_F, st.hv_box), generation
+        st.elapsed_s += time.monotonic() - t0
         row = {
-            "generation": st.algorithm.n_gen - 1, "evaluations": self.evaluations,
+            "generation": generation, "evaluations": self.evaluations,
             "feasible": st.feasible, "front_size": len(st.archive),
-            "hypervolume": hypervolume(front_F, st.hv_box) if st.hv_box else 0.0,
+            "hypervolume": st.hv_value, "hypervolume_generation": st.hv_generation,
             "elapsed_s": round(st.elapsed_s, 3),
         }
         ev = problem.evaluator
