@@ -20,7 +20,7 @@ from ..design import design_toml
 from ..evaluate import STATOR_RIM_M, Evaluator, Settings
 from ..physics.winding import winding_table
 from ..report.evaluation import design_report, rpm_table
-from ..search.run import atomic_write
+from ..safe_io import write_atomic
 from . import drawing
 from .front_page import open_run
 
@@ -487,16 +487,16 @@ def write_build_sheet(run, design_id) -> tuple[Path, Path, Sheet]:
         for block in sec.blocks:
             if block[0] == "svg":
                 name = f"build-{design_id}-{block[1]}.svg"
-                atomic_write(run.dir / name, (block[2] + "\n").encode("utf-8"))
+                write_atomic(run.dir / name, (block[2] + "\n").encode("utf-8"))
                 svg_files[block[1]] = name
     design_file = f"build-{design_id}.toml"
     for sec in sheet.sections:
         for block in sec.blocks:
             if block[0] == "code":
-                atomic_write(run.dir / design_file, block[1].encode("utf-8"))
+                write_atomic(run.dir / design_file, block[1].encode("utf-8"))
                 svg_files["design"] = design_file
     html_path = run.dir / f"build-{design_id}.html"
     md_path = run.dir / f"build-{design_id}.md"
-    atomic_write(html_path, sheet_html(sheet).encode("utf-8"))
-    atomic_write(md_path, sheet_markdown(sheet, svg_files).encode("utf-8"))
+    write_atomic(html_path, sheet_html(sheet).encode("utf-8"))
+    write_atomic(md_path, sheet_markdown(sheet, svg_files).encode("utf-8"))
     return html_path, md_path, sheet

@@ -23,7 +23,8 @@ import plotly.offline
 from ..errors import InputError, Problem
 from ..evaluate import Evaluation
 from ..report.evaluation import design_report
-from ..search.run import SearchRun, atomic_write
+from ..safe_io import write_atomic
+from ..search.run import SearchRun
 from .drawing import PALETTE
 
 __all__ = ["open_run", "front_reports", "page_data", "front_page_html", "write_front_page",
@@ -347,5 +348,5 @@ def write_front_page(run) -> Path:
                 f"charging at {run.scenario.battery_charging_V:g} V; prices in {run.scenario.currency} "
                 "from the run's catalog snapshot")
     path = run.dir / FRONT_PAGE
-    atomic_write(path, front_page_html(data, title, subtitle).encode("utf-8"))
+    write_atomic(path, front_page_html(data, title, subtitle).encode("utf-8"))
     return path

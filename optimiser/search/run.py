@@ -40,6 +40,7 @@ from pymoo.core.mixed import MixedVariableGA
 from ..catalogs import load_catalogs
 from ..design import DESIGN_KEYS, DesignBatch
 from ..evaluate import Evaluator, Settings
+from ..safe_io import atomic_writer, write_atomic
 from ..scenario import load_scenario
 from .front import hypervolume, merge_front
 from .mating import FrontFillMating
@@ -96,32 +97,6 @@ def _sha256(path):
     return hashlib.sha256(Path(path).read_bytes()).hexdigest()
 
 
-def atomic_write(path, data: bytes):
-    """Write bytes to `path` so that a crash leaves either the old or the new file, never half."""
-    _atomic(path, lambda fh: fh.write(data))
-
-
-def atomic_pickle(path, obj):
-    """`atomic_write` of pickle.dumps(obj), streamed: no second copy of a large state in memory."""
-    _atomic(path, lambda fh: pickle.dump(obj, fh, protocol=pickle.HIGHEST_PROTOCOL))
-
-
-def _atomic(path, write):
-    """Temporary file beside `path`, `write(fh)`, fsync, rename over `path`, fsync the folder."""
-    path = Path(path)
-    tmp = path.with_name(path.name + ".tmp")
-    with open(tmp, "wb") as fh:
-        write(fh)
-        fh.flush()
-        os.fsync(fh.fileno())
-    os.replace(tmp, path)
-    dir_fd = os.open(path.parent, os.O_RDONLY)
-    try:
-        os.fsync(dir_fd)
-    finally:
-        os.close(dir_fd)
-
-
 def new_run_dir(base="runs") -> Path:
     """runs/<date-time>, with a suffix when that name is taken: an earlier run is never reused."""
     base = Path(base)
@@ -166,7 +141,7 @@ def create_run(run_dir, scenario_path, catalogs_dir, *, seed, population, budget
         "catalog_source": str(catalogs_dir.resolve()), "catalog_hashes": hashes,
         "status": "new", "generations": 0, "evaluations": 0, "elapsed_s": 0.0,
     }
-    atomic_write(run_dir / "run.json", json.dumps(meta, indent=2).encode())
+    write_atomic(run_dir / "run.json", json.dumps(meta, indent=2).encode())
     return run_dir
 
 
@@ -309,13 +284,14 @@ class SearchRun:
         if not force and time.monotonic() - self._last_save < interval:
             return False
         t0 = time.monotonic()
-        atomic_pickle(self.dir / "checkpoint.pkl", self.state)
+        with atomic_writer(self.dir / "checkpoint.pkl") as fh:
+            pickle.dump(self.state, fh, protocol=pickle.HIGHEST_PROTOCOL)
         self._write_history()
         self._write_front()
         self.meta.update(status=status, generations=len(self.state.history),
                          evaluations=self.evaluations, elapsed_s=round(self.state.elapsed_s, 3),
                          front_size=int(len(self.state.archive)))
-        atomic_write(self.dir / "run.json", json.dumps(self.meta, indent=2).encode())
+        write_atomic(self.dir / "run.json", json.dumps(self.meta, indent=2).encode())
         self._last_save = time.monotonic()
         self._save_s = self._last_save - t0
         return True
@@ -324,7 +300,7 @@ class SearchRun:
         rows = self.state.history
         if not rows:
             return
-        atomic_write(self.dir / "history.csv", _csv_bytes(list(rows[0]), [list(r.values()) for r in rows]))
+        write_atomic(self.dir / "history.csv", _csv_bytes(list(rows[0]), [list(r.values()) for r in rows]))
 
     def front_designs(self):
         """(ids, DesignBatch) of the archived front, ids stable for the run's life ('D' + cache row)."""
@@ -357,7 +333,7 @@ class SearchRun:
             for i, rec in enumerate(batch.records(self.catalogs)):
                 lines.append([ids[i], *[rec[k] for k in DESIGN_KEYS], *map(_num, objectives[i]),
                               *map(_num, values[i]), self.model])
-        atomic_write(self.dir / "front.csv", _csv_bytes(header, lines))
+        write_atomic(self.dir / "front.csv", _csv_bytes(header, lines))
 
 
 def _num(x):
