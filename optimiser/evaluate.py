@@ -13,6 +13,7 @@ The search sees only `Evaluator.evaluate` and the names below; it never imports 
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import NamedTuple
 
 import numpy as np
 
@@ -89,6 +90,59 @@ class Evaluation:
     def problems(self, i):
         """User-facing reasons for every failed constraint of design i."""
         return [CONSTRAINT_REASONS[n] for n, g in zip(CONSTRAINTS, self.constraints[i]) if g > 0]
+
+
+class Geometry(NamedTuple):
+    """Stage 1 of `Evaluator._at_speed`: catalog values per design, winding and coil geometry."""
+
+    mag: dict                 # magnet catalog columns indexed by the batch
+    wire: dict                # wire catalog columns
+    disc: dict                # disc catalog columns
+    coils: np.ndarray         # Q
+    poles: np.ndarray         # 2p
+    pole_pairs: np.ndarray    # p
+    combo: np.ndarray         # row in the WindingTable (0 where invalid)
+    winding_ok: np.ndarray    # balanced winding with allowed parallel paths
+    paths: np.ndarray         # parallel paths (>= 1)
+    series: np.ndarray        # series coils per path
+    coil: geometry.CoilGeometry  # the coil the physics uses (capped to the axial envelope)
+    built: geometry.CoilGeometry  # the coil as it would be built: reported and fit-checked
+    fit: np.ndarray           # (n, 6) fit margins
+    leg: np.ndarray           # coil leg width, floored at 0.1 mm [m]
+    path_len: np.ndarray      # wire length of one path [m]
+    total_wire: np.ndarray    # wire length of the machine [m]
+
+
+class FieldEMF(NamedTuple):
+    """Stage 2: everything per tesla of remanence (and EMF per rpm), plus R20 and L."""
+
+    e_unit: np.ndarray            # (n, 3, M) phase EMF per rpm per T [V]
+    e_star_unit: np.ndarray       # star(-equivalent) EMF the bridge sees (first sixth if resistive)
+    e_zero_unit: np.ndarray       # zero-sequence spectrum of the delta designs
+    delta: np.ndarray             # connection is delta
+    line_peak_per_rpm_per_T: np.ndarray
+    line_rms_per_rpm_per_T: np.ndarray
+    b_sq: np.ndarray              # (n, harmonics) mean square gap field in the coil, per T^2 [T^2]
+    phi_unit: np.ndarray          # flux per pole per T [Wb]
+    force_unit: np.ndarray        # axial attraction per T^2 [N]
+    r20: np.ndarray               # phase resistance at 20 C [ohm]
+    l_phase: np.ndarray           # phase inductance [H]
+    active_copper_m3: np.ndarray  # copper volume in the field (eddy loss) [m^3]
+
+
+class HotState(NamedTuple):
+    """Stage 3: the electro-thermal fixed point and what was computed at it."""
+
+    t_coil: np.ndarray        # coil temperature reported [C]
+    t_used: np.ndarray        # temperature the last losses were computed at [C]
+    t_mag: np.ndarray         # magnet temperature [C]
+    br: np.ndarray            # remanence at t_mag [T]
+    resistance: np.ndarray    # hot phase resistance [ohm]
+    bridge: rectifier.BridgeResult
+    copper_W: np.ndarray      # stator copper loss incl. the delta's circulating current [W]
+    eddy_W: np.ndarray        # strand eddy loss [W]
+    runaway: np.ndarray       # no steady state
+    omega: np.ndarray         # shaft speed [rad/s]
 
 
 class WindingTable:
@@ -238,10 +292,22 @@ class Evaluator:
             (v["cut_in_rpm"] - free.rpm.max(axis=1)) / sc.sailing_rpm)
 
     def _at_speed(self, batch: DesignBatch, rpm=None) -> Evaluation:
-        """The pipeline at one shaft speed per design (objectives filled in by `evaluate`)."""
-        sc, st = self.scenario, self.settings
+        """The pipeline at one shaft speed per design (objectives filled in by `evaluate`).
+
+        Four stages, each a method returning a small record the next one reads:
+        geometry and fit (`_geometry`) -> field, EMF and circuit (`_field_and_emf`) ->
+        electro-thermal fixed point (`_electro_thermal`) -> losses and results (`_results`).
+        """
         n = len(batch)
-        rpm = np.broadcast_to(np.asarray(sc.sailing_rpm if rpm is None else rpm, float), (n,)).copy()
+        rpm = np.broadcast_to(np.asarray(self.scenario.sailing_rpm if rpm is None else rpm, float), (n,)).copy()
+        geo = self._geometry(batch)
+        fem = self._field_and_emf(batch, geo)
+        hot = self._electro_thermal(batch, geo, fem, rpm)
+        return self._results(batch, geo, fem, hot, rpm)
+
+    def _geometry(self, batch: DesignBatch) -> "Geometry":
+        """Stage 1: catalog lookups, winding lookup, coil geometry, fit margins, wire lengths."""
+        sc = self.scenario
         mag = {k: v[batch.magnet] for k, v in self.magnet.items()}
         wire = {k: v[batch.wire] for k, v in self.wire.items()}
         disc = {k: v[batch.disc] for k, v in self.disc.items()}
@@ -280,11 +346,17 @@ class Evaluator:
                                                              coil.stator_thickness_m))
         path_len, total_wire = geometry.winding_lengths(coil.mean_turn_length_m, batch.turns,
                                                         batch.strands, coils, series)
+        return Geometry(mag, wire, disc, coils, poles, pole_pairs, combo, winding_ok, paths, series,
+                        coil, built, fit, leg, path_len, total_wire)
 
-        # Field and EMF per tesla of remanence and per rpm: both are linear in Br and speed, so the
-        # thermal loop below only rescales them.
+    def _field_and_emf(self, batch: DesignBatch, geo: "Geometry") -> "FieldEMF":
+        """Stage 2: field and EMF per tesla of remanence and per rpm (both are linear in Br and
+        speed, so the thermal loop only rescales them), gap field, flux, force, R and L."""
+        st = self.settings
+        n = len(batch)
+        mag, coil, pole_pairs, combo, series = geo.mag, geo.coil, geo.pole_pairs, geo.combo, geo.series
         unit_br = np.ones(n)
-        lam = self._flux_linkage(batch, mag, coil, leg, pole_pairs, unit_br)
+        lam = self._flux_linkage(batch, mag, coil, geo.leg, pole_pairs, unit_br)
         e_unit = emf.phase_emf_waveform(lam, self.windings.phase_factors[combo], series, batch.turns,
                                         pole_pairs, np.ones(n), self.orders, n_samples=st.n_samples)
         delta = batch.connection == 1
@@ -319,35 +391,42 @@ class Evaluator:
                                                        mag["thickness_m"], coil.face_gap_m, pole_pairs,
                                                        batch.ring_radius_m, self.orders,
                                                        n_slices=st.n_slices)
-        r20 = electrical.phase_resistance(path_len, wire["bare_diameter_m"], batch.strands, paths, 20.0)
+        r20 = electrical.phase_resistance(geo.path_len, geo.wire["bare_diameter_m"], batch.strands,
+                                          geo.paths, 20.0)
         l_coil = electrical.coil_inductance(batch.turns, coil.hole_radial_m, coil.hole_tangential_m,
-                                            leg, coil.coil_thickness_m,
+                                            geo.leg, coil.coil_thickness_m,
                                             coil.face_gap_m + 2.0 * mag["thickness_m"],
                                             n_images=st.inductance_images)
-        l_phase = electrical.phase_inductance(l_coil, series, paths)
-        active_copper_m3 = (coils * 2.0 * batch.turns * batch.strands * mag["length_m"]
-                            * np.pi * wire["bare_diameter_m"] ** 2 / 4.0)
-        ring_outer = batch.ring_radius_m + coil.hole_radial_m / 2.0 + leg
+        l_phase = electrical.phase_inductance(l_coil, series, geo.paths)
+        active_copper_m3 = (geo.coils * 2.0 * batch.turns * batch.strands * mag["length_m"]
+                            * np.pi * geo.wire["bare_diameter_m"] ** 2 / 4.0)
+        return FieldEMF(e_unit, e_star_unit, e_zero_unit, delta, line_peak_per_rpm_per_T,
+                        line_rms_per_rpm_per_T, bz_sq + bx_sq, phi_unit, force_unit, r20, l_phase,
+                        active_copper_m3)
+
+    def _electro_thermal(self, batch: DesignBatch, geo: "Geometry", fem: "FieldEMF", rpm) -> "HotState":
+        """Stage 3: the coil temperature's fixed point T = g(T) = T_air + R_th P(T).
+
+        Coil temperature -> resistance and Br -> currents -> losses. The first pass is at the
+        hottest temperature considered: if the coils would still heat up from there, there is no
+        steady state (runaway). The second tries the closed-form heat balance with the currents of
+        the first held; from then on the root is bracketed (g(T) > T: it lies above T) and found by
+        the Illinois variant of regula falsi, bisecting whenever a step would leave the bracket.
+        """
+        sc, st = self.scenario, self.settings
+        n = len(batch)
+        mag, coil, delta = geo.mag, geo.coil, fem.delta
+        ring_outer = batch.ring_radius_m + coil.hole_radial_m / 2.0 + geo.leg
         network = thermal.thermal_network(
             rpm, coil.coil_inner_radius_m, ring_outer, coil.coil_outer_radius_m + STATOR_RIM_M,
             coil.stator_thickness_m, sc.resin_skin_m, sc.resin_conductivity_W_mK,
-            sc.running_clearance_m, sc.bilge_air_C, disc_radius_m=disc["diameter_m"] / 2.0,
-            disc_thickness_m=disc["thickness_m"])
+            sc.running_clearance_m, sc.bilge_air_C, disc_radius_m=geo.disc["diameter_m"] / 2.0,
+            disc_thickness_m=geo.disc["thickness_m"])
         r_th = network.coil_to_air_K_W
         omega = rpm * 2.0 * np.pi / 60.0
-        omega_e = omega * pole_pairs
+        omega_e = omega * geo.pole_pairs
         f_e = omega_e / (2.0 * np.pi)
-        air = losses.air_properties(sc.bilge_air_C)
-        windage_W = losses.windage_loss(omega, disc["diameter_m"] / 2.0, sc.running_clearance_m,
-                                       air.density_kg_m3, air.viscosity_Pa_s)
-        bearing_W = losses.bearing_loss(omega, sc.bearing_drag_Nm)
 
-        # Fixed point T = g(T) = T_air + R_th P(T): coil temperature -> resistance and Br ->
-        # currents -> losses. The first pass is at the hottest temperature considered: if the
-        # coils would still heat up from there, there is no steady state (runaway). The second
-        # tries the closed-form heat balance with the currents of the first held; from then on
-        # the root is bracketed (g(T) > T: it lies above T) and found by the Illinois variant of
-        # regula falsi, bisecting whenever a step would leave the bracket.
         alpha = electrical.COPPER_TEMP_COEFF_20C
         lo, hi = np.full(n, float(sc.bilge_air_C)), np.full(n, RUNAWAY_C)
         h_lo, h_hi = np.full(n, np.nan), np.zeros(n)
@@ -356,15 +435,16 @@ class Evaluator:
         for it in range(st.thermal_iterations):
             t_mag = thermal.magnet_temperature(t_coil, sc.bilge_air_C, network)
             br = mag["remanence_T"] * (1.0 + mag["br_temp_coeff_per_K"] * (t_mag - 20.0))
-            resistance = r20 * (1.0 + alpha * (t_coil - 20.0))
+            resistance = fem.r20 * (1.0 + alpha * (t_coil - 20.0))
             scale = br * rpm
-            bridge, circ_loss = self._bridge(e_star_unit * scale[:, None, None], e_zero_unit * scale[delta, None],
-                                             resistance, l_phase, omega_e, delta)
+            bridge, circ_loss = self._bridge(fem.e_star_unit * scale[:, None, None],
+                                             fem.e_zero_unit * scale[delta, None],
+                                             resistance, fem.l_phase, omega_e, delta)
             copper_W = bridge.copper_loss_W + circ_loss
-            eddy_W = losses.eddy_loss_round_wire(f_e[:, None] * self.orders, (bz_sq + bx_sq) * br[:, None] ** 2,
-                                                 wire["bare_diameter_m"],
+            eddy_W = losses.eddy_loss_round_wire(f_e[:, None] * self.orders, fem.b_sq * br[:, None] ** 2,
+                                                 geo.wire["bare_diameter_m"],
                                                  electrical.copper_resistivity(t_coil),
-                                                 active_copper_m3)
+                                                 fem.active_copper_m3)
             t_heat = sc.bilge_air_C + r_th * (copper_W + eddy_W)
             if it == 0:
                 runaway = t_heat > RUNAWAY_C
@@ -384,30 +464,45 @@ class Evaluator:
             t_next = np.where(np.isnan(h_lo), t_try, secant)
             inside = (t_next > lo) & (t_next < hi)
             t_coil = np.where(runaway, RUNAWAY_C, np.where(inside, t_next, 0.5 * (lo + hi)))
-        t_used, t_coil = t_coil, np.minimum(t_heat, RUNAWAY_C)
+        return HotState(np.minimum(t_heat, RUNAWAY_C), t_coil, t_mag, br, resistance, bridge, copper_W,
+                        eddy_W, runaway, omega)
+
+    def _results(self, batch: DesignBatch, geo: "Geometry", fem: "FieldEMF", hot: "HotState",
+                 rpm) -> Evaluation:
+        """Stage 4: windage and bearing loss, shaft power and torque, cut-in, back iron, costs,
+        constraints and every reported value."""
+        sc = self.scenario
+        n = len(batch)
+        mag, wire, disc, coil, built = geo.mag, geo.wire, geo.disc, geo.coil, geo.built
+        bridge, br, omega = hot.bridge, hot.br, hot.omega
+        air = losses.air_properties(sc.bilge_air_C)
+        windage_W = losses.windage_loss(omega, disc["diameter_m"] / 2.0, sc.running_clearance_m,
+                                       air.density_kg_m3, air.viscosity_Pa_s)
+        bearing_W = losses.bearing_loss(omega, sc.bearing_drag_Nm)
+        copper_W, eddy_W, t_coil, t_mag = hot.copper_W, hot.eddy_W, hot.t_coil, hot.t_mag
 
         # The delta's circulating (triplen) current is driven by the EMFs too: its loss is shaft power.
         shaft_W = bridge.electrical_power_W + (copper_W - bridge.copper_loss_W) + eddy_W + windage_W + bearing_W
         torque = np.where(omega > 0, shaft_W / np.where(omega > 0, omega, 1.0), sc.bearing_drag_Nm)
         efficiency = np.where(shaft_W > 0, bridge.battery_power_W / np.where(shaft_W > 0, shaft_W, 1.0), 0.0)
-        cut_in = rectifier.cut_in_speed_rpm(line_peak_per_rpm_per_T * br, sc.battery_charging_V,
+        cut_in = rectifier.cut_in_speed_rpm(fem.line_peak_per_rpm_per_T * br, sc.battery_charging_V,
                                             sc.diode_forward_drop_V)
-        b_disc = fieldmodel.back_iron_flux_density(phi_unit * br, disc["thickness_m"], mag["length_m"])
-        magnet_cost = 2.0 * poles * mag["price_each"]
-        copper_kg = geometry.copper_mass_kg(total_wire, wire["bare_diameter_m"])
+        b_disc = fieldmodel.back_iron_flux_density(fem.phi_unit * br, disc["thickness_m"], mag["length_m"])
+        magnet_cost = 2.0 * geo.poles * mag["price_each"]
+        copper_kg = geometry.copper_mass_kg(geo.total_wire, wire["bare_diameter_m"])
 
         limit_coil = wire["thermal_class_C"] - sc.temperature_margin_K
         constraints = np.column_stack([
-            fit,
+            geo.fit,
             (t_coil - limit_coil) / 100.0,
             (t_mag - mag["max_temp_C"]) / 100.0,
             (b_disc - sc.back_iron_saturation_T) / sc.back_iron_saturation_T,
             (cut_in - sc.sailing_rpm) / sc.sailing_rpm,
-            np.where(winding_ok, -1.0, 1.0),
+            np.where(geo.winding_ok, -1.0, 1.0),
         ])
         values = {
-            "rpm": rpm, "coils": coils, "poles": poles, "series_coils_per_path": series,
-            "winding_factor": self.windings.winding_factor[combo],
+            "rpm": rpm, "coils": geo.coils, "poles": geo.poles, "series_coils_per_path": geo.series,
+            "winding_factor": self.windings.winding_factor[geo.combo],
             "ring_radius_m": batch.ring_radius_m, "magnet_length_m": mag["length_m"],
             "magnet_width_m": mag["width_m"], "magnet_thickness_m": mag["thickness_m"],
             "face_gap_m": built.face_gap_m, "stator_thickness_m": built.stator_thickness_m,
@@ -416,27 +511,27 @@ class Evaluator:
             "mean_turn_length_m": coil.mean_turn_length_m, "coil_outer_radius_m": coil.coil_outer_radius_m,
             "coil_inner_radius_m": coil.coil_inner_radius_m,
             "remanence_T": br, "recoil_permeability": mag["recoil_permeability"], "magnet_temperature_C": t_mag,
-            "phase_resistance_20C_ohm": r20, "phase_resistance_hot_ohm": resistance,
-            "phase_inductance_H": l_phase,
-            "emf_line_rms_per_rpm_V": line_rms_per_rpm_per_T * br,
-            "emf_line_peak_per_rpm_V": line_peak_per_rpm_per_T * br,
-            "open_circuit_line_rms_V": line_rms_per_rpm_per_T * br * rpm,
-            "open_circuit_line_peak_V": line_peak_per_rpm_per_T * br * rpm,
+            "phase_resistance_20C_ohm": fem.r20, "phase_resistance_hot_ohm": hot.resistance,
+            "phase_inductance_H": fem.l_phase,
+            "emf_line_rms_per_rpm_V": fem.line_rms_per_rpm_per_T * br,
+            "emf_line_peak_per_rpm_V": fem.line_peak_per_rpm_per_T * br,
+            "open_circuit_line_rms_V": fem.line_rms_per_rpm_per_T * br * rpm,
+            "open_circuit_line_peak_V": fem.line_peak_per_rpm_per_T * br * rpm,
             "charge_current_A": bridge.dc_current_A, "phase_current_rms_A": bridge.phase_current_rms_A,
             "battery_power_W": bridge.battery_power_W, "dc_resistance_loss_W": bridge.dc_resistance_loss_W,
             "copper_loss_W": copper_W, "eddy_loss_W": eddy_W, "diode_loss_W": bridge.diode_loss_W,
             "windage_loss_W": windage_W, "bearing_loss_W": bearing_W, "shaft_power_W": shaft_W,
             "drag_torque_Nm": torque, "efficiency": efficiency,
-            "coil_temperature_C": t_coil, "thermal_runaway": runaway,
-            "thermal_residual_K": np.abs(t_coil - t_used), "coil_limit_C": limit_coil,
+            "coil_temperature_C": t_coil, "thermal_runaway": hot.runaway,
+            "thermal_residual_K": np.abs(t_coil - hot.t_used), "coil_limit_C": limit_coil,
             "cut_in_rpm": cut_in, "back_iron_flux_density_T": b_disc,
-            "axial_attraction_N": force_unit * br ** 2,
-            "wire_length_m": total_wire, "copper_mass_kg": copper_kg,
+            "axial_attraction_N": fem.force_unit * br ** 2,
+            "wire_length_m": geo.total_wire, "copper_mass_kg": copper_kg,
             "wire_cost": copper_kg * (1.0 + sc.wire_margin) * wire["price_per_kg"],
             "magnet_cost": magnet_cost, "disc_cost": 2.0 * disc["price_each"],
             "axial_length_m": 2.0 * disc["thickness_m"] + 2.0 * mag["thickness_m"] + built.face_gap_m,
         }
-        return Evaluation(values, np.empty((n, 0)), constraints, e_unit * (br * rpm)[:, None, None])
+        return Evaluation(values, np.empty((n, 0)), constraints, fem.e_unit * (br * rpm)[:, None, None])
 
     # -- pieces the pipeline switches between ------------------------------------------------------
     def _flux_linkage(self, batch, mag, coil, leg, pole_pairs, br):
