@@ -136,8 +136,15 @@ def scenario_check(file: Path = typer.Argument(None, help="Scenario file; omit f
     table.add_column("value", justify="right")
     for f in FIELDS:
         value = getattr(scenario, f.attr)
-        table.add_row(f.key, str(value) if f.kind is not float else f"{value / f.scale:g}")
+        text = str(value) if f.kind is not float else f"{value / f.scale:g}"
+        if f.key == "shaft_line_friction_Nm" and scenario.shaft_line_friction_fitted:
+            text = f"{value:.3g} (fitted)"
+        table.add_row(f.key, text)
     Console().print(table)
+    if scenario.shaft_line_friction_fitted:
+        typer.echo(f"shaft_line_friction_Nm fitted: {scenario.shaft_line_friction_Nm:.3f} N m makes "
+                   f"the propeller free-wheel at {scenario.measured_free_wheel_rpm:g} rpm at "
+                   f"{scenario.measured_free_wheel_boat_speed_kn:g} kn (replaces the file's value)")
 
 
 # --- afpm evaluate ------------------------------------------------------------------------------

@@ -143,6 +143,80 @@ def free_wheel_rpm(propeller_torque: TorqueFunction, drag_torque_Nm=0.0, rpm_min
                            rpm_min, rpm_max, n_scan, n_refine)
 
 
+class FrictionFit(NamedTuple):
+    """Shaft-line friction fitted to a measured free-wheeling speed, per element."""
+
+    friction_Nm: np.ndarray  # [N m] the propeller's own torque at the measured rpm
+    rpm: np.ndarray  # [rpm] where the model free-wheels from rest with that friction
+    lowest_rpm: np.ndarray  # [rpm] slowest free-wheel reachable from rest (the most friction it passes)
+    frictionless_rpm: np.ndarray  # [rpm] free-wheel with no friction at all
+    starting_torque_Nm: np.ndarray  # [N m] the propeller's torque on a held shaft
+    ok: np.ndarray  # bool: friction >= 0 and the model free-wheels at the measured rpm
+
+
+def fit_shaft_line_friction(hydro_torque: TorqueFunction, measured_rpm, rpm_min=5.0,
+                            rpm_max=3000.0, tolerance_rpm=0.5) -> FrictionFit:
+    """Shaft-line friction that makes the propeller free-wheel at a measured speed.
+
+    A shaft free-wheels where the propeller's hydrodynamic torque equals the
+    friction, ``Q_h(n) = Q_f``: the friction that gives the measured speed
+    ``n_m`` is the propeller's own torque there, ``Q_f = Q_h(n_m)`` (the root
+    in ``Q_f`` of ``n_fw(Q_f) = n_m`` is linear, so exact in one call). It is
+    the answer only if the shaft, started from rest, settles there: then
+    ``Q_h(n) > Q_f`` on the way up and the balance is stable. That is checked
+    with :func:`free_wheel_rpm` on ``Q_h - Q_f``; where the first stable
+    balance from rest is not within ``tolerance_rpm`` of the measurement (the
+    friction would stall the propeller at rest, or the measured speed lies
+    where the propeller's torque rises with speed), or the friction would be
+    negative (measured faster than the frictionless propeller), ``ok`` is
+    False and the other fields say why.
+
+    Parameters
+    ----------
+    hydro_torque : callable
+        ``rpm array -> propeller torque array`` with no friction subtracted
+        [N m], at the boat speed of the measurement.
+    measured_rpm : array_like
+        Measured free-wheeling shaft speed (generator absent or its own drag
+        not on the shaft) [rpm].
+    rpm_min, rpm_max : array_like, optional
+        Scan range of the free-wheel check [rpm].
+    tolerance_rpm : float, optional
+        Largest accepted difference between the model's free-wheel and the
+        measurement [rpm].
+
+    Returns
+    -------
+    FrictionFit
+        ``3 x (24 + 12 + 1) + 3`` calls of ``hydro_torque`` (one on a
+        65-point leading grid axis: it must broadcast one).
+
+    References
+    ----------
+    Torque balance of a free shaft, J dw/dt = Q_h - Q_f (from memory, any
+    dynamics text); the solver is :func:`operating_point`.
+    """
+    n_m = np.asarray(measured_rpm, dtype=float)
+    friction = np.asarray(hydro_torque(n_m), float)
+    start = np.asarray(hydro_torque(np.asarray(rpm_min, float) + 0.0 * n_m), float)
+
+    def balance(q_f):
+        return free_wheel_rpm(lambda rpm: np.asarray(hydro_torque(rpm), float) - q_f, 0.0,
+                              rpm_min, rpm_max)
+
+    fit = balance(np.maximum(friction, 0.0))
+    free = balance(0.0)
+    # The most friction a shaft starting from rest gets past: the least torque on the way up to
+    # the propeller's peak (a grid on a leading axis up to the frictionless free-wheel).
+    t = np.linspace(0.0, 1.0, 65).reshape((-1,) + (1,) * free.rpm.ndim)
+    q = np.asarray(hydro_torque(rpm_min + (np.maximum(free.rpm, rpm_min) - rpm_min) * t), float)
+    rising = np.arange(len(t)).reshape(t.shape) <= np.argmax(q, axis=0)
+    most = np.min(np.where(rising, q, np.inf), axis=0)
+    lowest = balance((1.0 - 1e-3) * np.maximum(most, 0.0))
+    ok = (friction >= 0.0) & ~fit.stalled & ~fit.runaway & (np.abs(fit.rpm - n_m) <= tolerance_rpm)
+    return FrictionFit(friction, fit.rpm, lowest.rpm, free.rpm, start, ok)
+
+
 def loaded_operating_point(generator_torque: TorqueFunction, propeller_torque: TorqueFunction,
                            bearing_drag_Nm=0.0, rpm_min=5.0, rpm_max=3000.0, n_scan=16,
                            n_refine=10) -> tuple[OperatingPoint, OperatingPoint]:

@@ -15,6 +15,8 @@ from importlib import resources
 from pathlib import Path
 
 from .errors import InputError, Problem, did_you_mean
+from .operating import fit_shaft_line_friction
+from .physics.propeller import propeller_turbine
 
 __all__ = ["Scenario", "load_scenario", "write_template", "render_template", "FIELDS",
            "DEMO_SCENARIO"]
@@ -116,7 +118,15 @@ FIELDS: tuple[Field, ...] = (
     Field("wake_fraction", float, 0.10, 0, 0.6, "inflow slowed by the hull at the propeller "
           "(common practice for a sailing yacht, about 0.05-0.15)", "propeller"),
     Field("shaft_line_friction_Nm", float, 1.0, 0, 100, "stern gland, cutless bearing and "
-          "gearbox in neutral (estimate; measure yours)", "propeller"),
+          "gearbox in neutral (estimate; measure yours: the two measured_free_wheel keys fit it "
+          "and replace this value)", "propeller"),
+    Field("measured_free_wheel_rpm", float, 0.0, 0, 6000, "0: not measured. The shaft speed "
+          "you measured sailing steadily in flat water, engine in neutral and no generator "
+          "load on the shaft; with the boat speed below it fits shaft_line_friction_Nm",
+          "propeller"),
+    Field("measured_free_wheel_boat_speed_kn", float, 0.0, 0, 30, "0: not measured. Boat "
+          "speed through the water (log, not GPS, in current) during that measurement (knots)",
+          "propeller"),
     Field("water_density_kg_m3", float, 1025.0, 990, 1050, "sea water", "propeller"),
     Field("profile_boat_speed_kn", tuple, (4.0, 5.0, 6.0, 7.0), 0.5, 30, "boat speeds of the "
           "sailing profile (knots)", "propeller"),
@@ -171,10 +181,13 @@ class Scenario:
     propeller_area_ratio: float
     wake_fraction: float
     shaft_line_friction_Nm: float
+    measured_free_wheel_rpm: float
+    measured_free_wheel_boat_speed_kn: float
     water_density_kg_m3: float
     profile_boat_speed_kn: tuple
     profile_hours_per_day: tuple
     source: str = "built-in demo"
+    shaft_line_friction_fitted: bool = False  # True: shaft_line_friction_Nm fitted to the measurement
 
     @property
     def has_propeller(self) -> bool:
@@ -233,9 +246,47 @@ def _parse(text: str, file: str, source: str) -> Scenario:
             problems.append(problem(lines.get(key), key, msg))
     if problems:
         raise InputError(problems)
-    return Scenario(source=source, **{f.attr: merged[f.key] * f.scale if f.kind is float
-                                      else tuple(merged[f.key]) if f.kind is tuple
-                                      else merged[f.key] for f in FIELDS})
+    scenario = Scenario(source=source, **{f.attr: merged[f.key] * f.scale if f.kind is float
+                                          else tuple(merged[f.key]) if f.kind is tuple
+                                          else merged[f.key] for f in FIELDS})
+    if scenario.measured_free_wheel_rpm > 0:
+        key = "measured_free_wheel_rpm"
+        scenario, msg = _calibrated(scenario)
+        if msg:
+            raise InputError([problem(lines.get(key), key, msg)])
+    return scenario
+
+
+def _calibrated(sc: Scenario) -> tuple[Scenario, str | None]:
+    """The scenario with shaft_line_friction_Nm fitted to the measured free-wheeling speed, or
+    why no friction gives it (operating.fit_shaft_line_friction on the scenario's propeller)."""
+    knots = sc.measured_free_wheel_boat_speed_kn
+    speed = knots * 1852.0 / 3600.0
+
+    def torque(rpm):
+        return propeller_turbine(rpm, speed, sc.propeller_diameter_m, sc.propeller_pitch_m,
+                                 sc.propeller_blades, sc.propeller_area_ratio, sc.wake_fraction,
+                                 density_kg_m3=sc.water_density_kg_m3).torque_Nm
+
+    fit = fit_shaft_line_friction(torque, sc.measured_free_wheel_rpm, rpm_max=sc.max_rpm * 2)
+    f, n = float(fit.friction_Nm), sc.measured_free_wheel_rpm
+    if bool(fit.ok):
+        return dataclasses.replace(sc, shaft_line_friction_Nm=f, shaft_line_friction_fitted=True), None
+    at = f"{n:g} rpm at {knots:g} kn"
+    check = ("check the log speed and the rpm reading, then propeller_pitch_mm, "
+             "propeller_diameter_mm, propeller_blades and wake_fraction")
+    span = (f"started from rest, this propeller free-wheels at {knots:g} kn between "
+            f"{float(fit.lowest_rpm):.0f} rpm (with the most friction it gets past) and "
+            f"{float(fit.frictionless_rpm):.0f} rpm (none)")
+    if f < 0:
+        return sc, f"no shaft-line friction gives {at}: the model propeller is slower even " \
+                   f"with none ({span}); {check}"
+    start = float(fit.starting_torque_Nm)
+    why = (f"the {f:.2f} N m that would hold it there is more than the {start:.2f} N m it gives "
+           "on a held shaft, so it would never start" if f >= start else
+           f"with the {f:.2f} N m that would hold it there it stops at {float(fit.rpm):.0f} rpm "
+           "on the way up (its torque rises with speed below there)")
+    return sc, f"no shaft-line friction gives {at} without stalling the propeller: {why} ({span}); {check}"
 
 
 def _key_lines(text: str) -> dict[str, int]:
@@ -315,6 +366,15 @@ def _cross_checks(v: dict, in_file) -> list[tuple[str, str]]:
         out.append((key, f"profile_boat_speed_kn has {len(v['profile_boat_speed_kn'])} speeds but "
                          f"profile_hours_per_day {len(v['profile_hours_per_day'])} entries: give "
                          "one number of hours per speed"))
+    measured = ("measured_free_wheel_rpm", "measured_free_wheel_boat_speed_kn")
+    given = [k for k in measured if v[k] > 0]
+    if given and len(given) < 2:
+        other = measured[1 - measured.index(given[0])]
+        out.append((given[0], f"needs {other} as well (the boat speed of the measurement)"
+                    if other.endswith("_kn") else f"needs {other} as well (the rpm measured)"))
+    elif given and v["propeller_diameter_mm"] <= 0:
+        out.append((given[0], "fits shaft_line_friction_Nm with the propeller model: set "
+                              "propeller_diameter_mm (and its pitch and blades)"))
     needs = [o for o in v["objectives"] if o in ("amp_hours_per_day", "mean_added_drag_N")]
     if needs and v["propeller_diameter_mm"] <= 0:
         out.append(("objectives", f"{needs[0]} needs a propeller: set propeller_diameter_mm"))

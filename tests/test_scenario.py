@@ -41,7 +41,10 @@ def test_scenario_has_the_spec_attributes():
                                             "propeller_pitch_m", "propeller_blades",
                                             "propeller_area_ratio", "wake_fraction",
                                             "shaft_line_friction_Nm", "water_density_kg_m3",
-                                            "profile_boat_speed_kn", "profile_hours_per_day"}
+                                            "profile_boat_speed_kn", "profile_hours_per_day",
+                                            # the shaft-line calibration (issue 14)
+                                            "measured_free_wheel_rpm", "measured_free_wheel_boat_speed_kn",
+                                            "shaft_line_friction_fitted"}
 
 
 def test_demo_is_kittiwake_in_si():
