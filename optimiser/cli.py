@@ -300,8 +300,8 @@ def search_command(
     if scheduler and not _parallel.dask_available():
         typer.echo(_parallel.INSTALL_HINT, err=True)
         raise typer.Exit(EXIT_INPUT)
-    if run is not None and (run / "run.json").exists():
-        search = SearchRun(run)
+    if run is not None and run.is_dir() and any(run.iterdir()):
+        search = SearchRun(run)  # a run to resume, or one line saying why it is none
         for option, given, kept in (("--fidelity", fidelity, search.model),
                                     ("--chunk", chunk, search.meta.get("chunk", 0))):
             if given is not None and given != kept:
@@ -316,9 +316,9 @@ def search_command(
         typer.echo(f"resuming {run} at generation {len(search.state.history)}, "
                    f"{search.evaluations} designs evaluated; budget {search.budget.describe()}")
     else:
-        if run is not None and run.exists() and any(run.iterdir()):
-            raise InputError([Problem(str(run), None, None, "folder exists and holds no run: choose "
-                                      "a new folder (an earlier run is never overwritten)")])
+        if run is not None and (run.is_symlink() or (run.exists() and not run.is_dir())):
+            raise InputError([Problem(str(run), None, None, "is a file (or a link), not a folder: "
+                                      "give a new or empty folder for the run")])
         run_dir = create_run(run or new_run_dir(), scenario, catalogs, seed=seed, population=population,
                              budget=budget or Budget(seconds=8 * 3600.0),
                              settings=Settings(field_model=fidelity or "fast"), chunk=chunk)

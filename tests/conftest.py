@@ -3,7 +3,9 @@ from __future__ import annotations
 
 import csv
 import io
+import os
 import shutil
+import tempfile
 from pathlib import Path
 
 import pytest
@@ -11,6 +13,11 @@ from typer.testing import CliRunner
 
 REPO = Path(__file__).resolve().parents[1]
 DEMO_CATALOGS = REPO / "catalogs"
+
+
+# The checkpoint key lives in the user's config folder; tests (and the afpm processes they start,
+# which inherit the environment) use a throw-away one instead.
+os.environ["AFPM_CONFIG_DIR"] = tempfile.mkdtemp(prefix="afpm-test-config-")
 
 
 @pytest.fixture

@@ -20,7 +20,7 @@ from ..design import design_toml
 from ..evaluate import STATOR_RIM_M, Evaluator, Settings
 from ..physics.winding import winding_table
 from ..report.evaluation import design_report, rpm_table
-from ..safe_io import write_atomic
+from ..safe_io import RunLock, write_atomic
 from . import drawing
 from .front_page import open_run
 
@@ -56,7 +56,7 @@ class NoMatch(Exception):
 # --- picking -----------------------------------------------------------------------------------
 def _front(run):
     ids, batch = run.front_designs()
-    ev = run.state.problem.evaluator.evaluate(batch) if len(batch) else None
+    ev = run.evaluator.evaluate(batch) if len(batch) else None
     return ids, batch, ev
 
 
@@ -219,7 +219,7 @@ def build_sheet(run, design_id) -> Sheet:
     ids, batch = run.front_designs()
     i = ids.index(design_id)
     one = batch.take([i])
-    evaluator = run.state.problem.evaluator
+    evaluator = run.evaluator
     sc, cat = run.scenario, run.catalogs
     rep = design_report(evaluator, one)
     rows = rpm_table(evaluator, one)
@@ -482,21 +482,22 @@ def write_build_sheet(run, design_id) -> tuple[Path, Path, Sheet]:
     if isinstance(run, (str, Path)):
         run = open_run(run)
     sheet = build_sheet(run, design_id)
-    svg_files = {}
-    for sec in sheet.sections:
-        for block in sec.blocks:
-            if block[0] == "svg":
-                name = f"build-{design_id}-{block[1]}.svg"
-                write_atomic(run.dir / name, (block[2] + "\n").encode("utf-8"))
-                svg_files[block[1]] = name
-    design_file = f"build-{design_id}.toml"
-    for sec in sheet.sections:
-        for block in sec.blocks:
-            if block[0] == "code":
-                write_atomic(run.dir / design_file, block[1].encode("utf-8"))
-                svg_files["design"] = design_file
-    html_path = run.dir / f"build-{design_id}.html"
-    md_path = run.dir / f"build-{design_id}.md"
-    write_atomic(html_path, sheet_html(sheet).encode("utf-8"))
-    write_atomic(md_path, sheet_markdown(sheet, svg_files).encode("utf-8"))
+    with RunLock(run.dir):
+        svg_files = {}
+        for sec in sheet.sections:
+            for block in sec.blocks:
+                if block[0] == "svg":
+                    name = f"build-{design_id}-{block[1]}.svg"
+                    write_atomic(run.dir / name, block[2] + "\n")
+                    svg_files[block[1]] = name
+        design_file = f"build-{design_id}.toml"
+        for sec in sheet.sections:
+            for block in sec.blocks:
+                if block[0] == "code":
+                    write_atomic(run.dir / design_file, block[1])
+                    svg_files["design"] = design_file
+        html_path = run.dir / f"build-{design_id}.html"
+        md_path = run.dir / f"build-{design_id}.md"
+        write_atomic(html_path, sheet_html(sheet))
+        write_atomic(md_path, sheet_markdown(sheet, svg_files))
     return html_path, md_path, sheet

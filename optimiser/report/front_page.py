@@ -20,10 +20,10 @@ from pathlib import Path
 import numpy as np
 import plotly.offline
 
-from ..errors import InputError, Problem
 from ..evaluate import Evaluation
 from ..report.evaluation import design_report
-from ..safe_io import write_atomic
+from ..safe_io import RunLock, write_atomic
+from ..search.folder import RunView
 from ..search.run import SearchRun
 from .drawing import PALETTE
 
@@ -33,13 +33,10 @@ __all__ = ["open_run", "front_reports", "page_data", "front_page_html", "write_f
 FRONT_PAGE = "front.html"
 
 
-def open_run(run_dir) -> SearchRun:
-    """The run in `run_dir`, or an InputError saying what is missing."""
-    run_dir = Path(run_dir)
-    if not (run_dir / "run.json").is_file():
-        raise InputError([Problem(str(run_dir), None, None,
-                                  "no run here (run.json missing): give a folder made by afpm search")])
-    return SearchRun(run_dir)
+def open_run(run_dir) -> RunView:
+    """The run in `run_dir` for reading, from its data files only (never its checkpoint), or an
+    InputError saying what is missing or damaged."""
+    return RunView(run_dir)
 
 
 def script_json(obj) -> str:
@@ -336,10 +333,10 @@ def front_page_html(data: dict, title: str, subtitle: str) -> str:
 
 def write_front_page(run) -> Path:
     """Write (or redraw) front.html in the run folder; returns its path."""
-    if not isinstance(run, SearchRun):
+    if not isinstance(run, (SearchRun, RunView)):
         run = open_run(run)
     ids, batch = run.front_designs()
-    evaluator = run.state.problem.evaluator
+    evaluator = run.evaluator
     data = page_data(evaluator, ids, batch, run.dir)
     meta = run.meta
     title = f"Pareto front: {run.scenario.name}, run {run.dir.name}"
@@ -348,5 +345,6 @@ def write_front_page(run) -> Path:
                 f"charging at {run.scenario.battery_charging_V:g} V; prices in {run.scenario.currency} "
                 "from the run's catalog snapshot")
     path = run.dir / FRONT_PAGE
-    write_atomic(path, front_page_html(data, title, subtitle).encode("utf-8"))
+    with RunLock(run.dir):
+        write_atomic(path, front_page_html(data, title, subtitle))
     return path

@@ -8,10 +8,14 @@ Layout of a run folder (names are a contract; scripts read them)::
     checkpoint.pkl   the whole search state after the last saved generation (atomic replace)
     history.csv      one line per generation
     front.csv        every feasible non-dominated design found so far
+    front.npz        the same front as integer arrays (design codes), what `front` and `pick` read
+    lock             locked by the process searching in the folder (holds its pid)
 
 The checkpoint pickles the pymoo algorithm (its problem, cache and random generator included)
 between generations, so a run resumed after Ctrl-C or kill -9 continues exactly as if it had never
-stopped. Time budgets count running time only.
+stopped. Time budgets count running time only. The pickle is authenticated with the user's own
+key and verified before it is opened (`folder.py`): a checkpoint from anyone else is never unpickled.
+Every file is written through `safe_io.write_atomic`; a new folder appears whole or not at all.
 
 Each population's new designs are evaluated in chunks of `run.json`'s `chunk` designs (fixed when
 the run starts, whatever evaluates them): `SearchRun.attach(mapper)` sends them to a process pool or
@@ -26,9 +30,9 @@ import datetime as dt
 import hashlib
 import json
 import os
-import pickle
 import shutil
 import signal
+import tempfile
 import time
 from dataclasses import asdict, dataclass, field
 from pathlib import Path
@@ -40,8 +44,11 @@ from pymoo.core.mixed import MixedVariableGA
 from ..catalogs import load_catalogs
 from ..design import DESIGN_KEYS, DesignBatch
 from ..evaluate import Evaluator, Settings
-from ..safe_io import atomic_writer, write_atomic
+from ..errors import InputError
+from ..safe_io import LOCK_FILE, RunLock, fsync_dir, write_atomic
 from ..scenario import load_scenario
+from .folder import (CATALOGS, CHECKPOINT, FRONT_DATA, RUN_JSON, SCENARIO, load_inputs, read_checkpoint,
+                     read_meta, sha256_file, write_checkpoint, write_front_data)
 from .front import hypervolume, merge_front
 from .mating import FrontFillMating
 from .problem import DesignDuplicateElimination, SizingProblem, evaluate_designs, front_values
@@ -93,10 +100,6 @@ class SearchState:
         return self.algorithm.problem
 
 
-def _sha256(path):
-    return hashlib.sha256(Path(path).read_bytes()).hexdigest()
-
-
 def new_run_dir(base="runs") -> Path:
     """runs/<date-time>, with a suffix when that name is taken: an earlier run is never reused."""
     base = Path(base)
@@ -116,6 +119,9 @@ def create_run(run_dir, scenario_path, catalogs_dir, *, seed, population, budget
                settings: Settings = Settings(), chunk: int | None = None):
     """Make a new run folder with its input snapshot; the inputs are checked before anything is written.
 
+    The folder is built whole under a hidden temporary name beside `run_dir` and renamed into place,
+    so a kill at any moment leaves either no run or a complete one (an empty `run_dir` is taken;
+    any other existing one raises FileExistsError: an earlier run is never overwritten).
     `chunk` (designs per evaluation chunk) defaults by field model (DEFAULT_CHUNK); it is part of
     the run, like the seed, because it must not change for the run's results to repeat.
     """
@@ -124,40 +130,94 @@ def create_run(run_dir, scenario_path, catalogs_dir, *, seed, population, budget
     catalogs = load_catalogs(catalogs_dir)
     source = Path(scenario_path) if scenario_path else demo_scenario_path()
     load_scenario(source)
-    run_dir.mkdir(parents=True, exist_ok=False)
-    shutil.copyfile(source, run_dir / "scenario.toml")
-    snap = run_dir / "catalogs"
-    snap.mkdir()
-    hashes = {}
-    for name, path in catalogs.files.items():
-        shutil.copyfile(path, snap / path.name)
-        hashes[path.name] = _sha256(path)
-    meta = {
-        "created": dt.datetime.now().isoformat(timespec="seconds"),
-        "seed": seed, "population": population, "budget": asdict(budget),
-        "settings": asdict(settings),
-        "chunk": int(chunk if chunk is not None else DEFAULT_CHUNK.get(settings.field_model, 0)),
-        "scenario_source": str(source.resolve()),
-        "catalog_source": str(catalogs_dir.resolve()), "catalog_hashes": hashes,
-        "status": "new", "generations": 0, "evaluations": 0, "elapsed_s": 0.0,
-    }
-    write_atomic(run_dir / "run.json", json.dumps(meta, indent=2).encode())
+    _check_free(run_dir)
+    run_dir.parent.mkdir(parents=True, exist_ok=True)
+    _remove_abandoned(run_dir.parent)
+    tmp = Path(tempfile.mkdtemp(prefix=f".{run_dir.name}{PARTIAL}", dir=run_dir.parent))
+    try:
+        with RunLock(tmp):  # marks it as being built (see _remove_abandoned)
+            scenario_bytes = source.read_bytes()
+            write_atomic(tmp / SCENARIO, scenario_bytes)
+            (tmp / CATALOGS).mkdir()
+            hashes = {}
+            for name, path in catalogs.files.items():
+                data = path.read_bytes()
+                write_atomic(tmp / CATALOGS / path.name, data)
+                hashes[path.name] = hashlib.sha256(data).hexdigest()
+            meta = {
+                "created": dt.datetime.now().isoformat(timespec="seconds"),
+                "seed": seed, "population": population, "budget": asdict(budget),
+                "settings": asdict(settings),
+                "chunk": int(chunk if chunk is not None else DEFAULT_CHUNK.get(settings.field_model, 0)),
+                "scenario_source": str(source.resolve()), "scenario_sha256": hashlib.sha256(scenario_bytes).hexdigest(),
+                "catalog_source": str(catalogs_dir.resolve()), "catalog_hashes": hashes,
+                "status": "new", "generations": 0, "evaluations": 0, "elapsed_s": 0.0,
+            }
+            write_atomic(tmp / RUN_JSON, json.dumps(meta, indent=2))
+            fsync_dir(tmp / CATALOGS)
+            try:
+                os.rename(tmp, run_dir)  # POSIX: replaces an empty folder, fails on a full one
+            except OSError as exc:
+                raise FileExistsError(f"{run_dir} exists and is not empty: an earlier run is never "
+                                      "overwritten") from exc
+    except BaseException:
+        shutil.rmtree(tmp, ignore_errors=True)
+        raise
+    fsync_dir(run_dir.parent)
     return run_dir
 
 
+PARTIAL = ".afpm-partial-"
+"""Infix of the hidden name a new run folder is built under before it is renamed into place."""
+
+
+def _check_free(run_dir):
+    if run_dir.is_symlink() or (run_dir.exists() and not run_dir.is_dir()):
+        raise FileExistsError(f"{run_dir} exists and is not a folder")
+    if run_dir.is_dir() and any(run_dir.iterdir()):
+        raise FileExistsError(f"{run_dir} exists and is not empty: an earlier run is never overwritten")
+
+
+def _remove_abandoned(parent):
+    """Remove run folders left half-built by a process killed while creating them (none is locked)."""
+    for partial in parent.glob(f".*{PARTIAL}*"):
+        if not partial.is_dir() or partial.is_symlink():
+            continue
+        if not (partial / LOCK_FILE).is_file():  # killed before its lock existed, or being made now
+            if time.time() - partial.stat().st_mtime > 600:
+                shutil.rmtree(partial, ignore_errors=True)
+            continue
+        try:
+            with RunLock(partial):
+                shutil.rmtree(partial)
+        except (InputError, OSError):
+            continue  # still being built by a live process, or already gone
+
+
 class SearchRun:
-    """One run folder being searched: load or start, step generation by generation, save."""
+    """One run folder being searched: load or start, step generation by generation, save.
+
+    Opening it takes the folder's lock (held for this object's life, see `close`): a second search,
+    or a front page or build sheet written while it runs, is refused with this process's pid.
+    """
 
     def __init__(self, run_dir):
         self.dir = Path(run_dir)
-        self.meta = json.loads((self.dir / "run.json").read_text())
-        self.catalogs = load_catalogs(self.dir / "catalogs")
-        self.scenario = load_scenario(self.dir / "scenario.toml")
+        self.meta = read_meta(self.dir)
+        self._lock = RunLock(self.dir).acquire()
+        try:
+            self._open()
+        except BaseException:
+            self.close()
+            raise
+
+    def _open(self):
+        self.meta = read_meta(self.dir)  # again, now that no other process can be writing it
+        self.catalogs, self.scenario = load_inputs(self.dir, self.meta)
         self.budget = Budget(**self.meta["budget"])
-        checkpoint = self.dir / "checkpoint.pkl"
-        if checkpoint.exists():
-            with open(checkpoint, "rb") as fh:
-                self.state: SearchState = pickle.load(fh)
+        checkpoint = self.dir / CHECKPOINT
+        if checkpoint.exists() or checkpoint.is_symlink():
+            self.state: SearchState = read_checkpoint(checkpoint, SearchState, self.dir)
         else:
             evaluator = Evaluator(self.catalogs, self.scenario, Settings(**self.meta["settings"]))
             space = SearchSpace(evaluator)
@@ -169,6 +229,14 @@ class SearchRun:
             algorithm.setup(problem, termination=("n_gen", 10 ** 9), seed=self.meta["seed"], verbose=False)
             self.state = SearchState(algorithm)
         self._last_save, self._save_s = time.monotonic(), 0.0
+
+    def close(self):
+        """Release the folder's lock (also released by the OS when the process ends)."""
+        self._lock.release()
+
+    @property
+    def evaluator(self):
+        return self.state.problem.evaluator
 
     @property
     def model(self):
@@ -186,7 +254,7 @@ class SearchRun:
         changed = []
         for name, digest in self.meta["catalog_hashes"].items():
             path = source / name
-            if not path.exists() or _sha256(path) != digest:
+            if not path.is_file() or sha256_file(path) != digest:
                 changed.append(name)
         return changed
 
@@ -284,8 +352,7 @@ class SearchRun:
         if not force and time.monotonic() - self._last_save < interval:
             return False
         t0 = time.monotonic()
-        with atomic_writer(self.dir / "checkpoint.pkl") as fh:
-            pickle.dump(self.state, fh, protocol=pickle.HIGHEST_PROTOCOL)
+        write_checkpoint(self.dir / CHECKPOINT, self.state)
         self._write_history()
         self._write_front()
         self.meta.update(status=status, generations=len(self.state.history),
@@ -333,6 +400,8 @@ class SearchRun:
             for i, rec in enumerate(batch.records(self.catalogs)):
                 lines.append([ids[i], *[rec[k] for k in DESIGN_KEYS], *map(_num, objectives[i]),
                               *map(_num, values[i]), self.model])
+        write_front_data(self.dir / FRONT_DATA, self.state.archive,
+                         self.state.problem.cache.codes[self.state.archive])
         write_atomic(self.dir / "front.csv", _csv_bytes(header, lines))
 
 
