@@ -175,3 +175,8 @@ def test_scalar_array_batch_shapes_and_consistency(n):
     assert field.flux_per_pole(*common).shape == (n,)
     Bz2, Bx2 = field.gap_field_rms_in_coil(1.3, 1.05, L, W, h, g, p, R, tc, ORDERS)
     assert Bz2.shape == Bx2.shape == (n, ORDERS.size)
+    # the three field summaries from one set of slice coefficients: the same numbers, bit for bit
+    force, phi, Bz2s, Bx2s = field.rotor_field_summary(1.3, 1.05, L, W, h, g, p, R, tc, ORDERS)
+    assert np.array_equal(force, field.axial_attraction_force(*common))
+    assert np.array_equal(phi, field.flux_per_pole(*common, surface="iron"))
+    assert np.array_equal(Bz2s, Bz2) and np.array_equal(Bx2s, Bx2)

@@ -612,6 +612,10 @@ def axial_attraction_force(remanence_T, recoil_permeability, magnet_length_m, ma
     r, wr, Bn, _ = _slice_coefficients(remanence_T, recoil_permeability, magnet_length_m,
                                        magnet_width_m, magnet_thickness_m, face_gap_m, pole_pairs,
                                        ring_radius_m, orders, n_slices)
+    return _force(r, wr, Bn)
+
+
+def _force(r, wr, Bn):
     return np.sum(wr * 2 * np.pi * r * np.sum(Bn**2, axis=-1), axis=-1) / (4 * MU0)
 
 
@@ -640,9 +644,16 @@ def flux_per_pole(remanence_T, recoil_permeability, magnet_length_m, magnet_widt
     ----------
     Layered 2-D solution as in `fourier_coefficients` (derived here).
     """
-    r, wr, Bn, u = _slice_coefficients(remanence_T, recoil_permeability, magnet_length_m,
+    coefficients = _slice_coefficients(remanence_T, recoil_permeability, magnet_length_m,
                                        magnet_width_m, magnet_thickness_m, face_gap_m, pole_pairs,
                                        ring_radius_m, orders, n_slices)
+    return _flux_per_pole(coefficients, remanence_T, recoil_permeability, magnet_width_m,
+                          magnet_thickness_m, face_gap_m, pole_pairs, orders, surface)
+
+
+def _flux_per_pole(coefficients, remanence_T, recoil_permeability, magnet_width_m,
+                   magnet_thickness_m, face_gap_m, pole_pairs, orders, surface):
+    r, wr, Bn, u = coefficients
     n = np.asarray(orders, dtype=float)
     d = np.asarray(face_gap_m, dtype=float)[..., None, None] / 2
     h = np.asarray(magnet_thickness_m, dtype=float)[..., None, None]
@@ -713,9 +724,14 @@ def gap_field_rms_in_coil(remanence_T, recoil_permeability, magnet_length_m, mag
     ----------
     Parviainen, Niemela & Pyrhonen 2004 (see `fourier_coefficients`); B_x derived here.
     """
-    r, wr, Bn, u = _slice_coefficients(remanence_T, recoil_permeability, magnet_length_m,
+    coefficients = _slice_coefficients(remanence_T, recoil_permeability, magnet_length_m,
                                        magnet_width_m, magnet_thickness_m, face_gap_m, pole_pairs,
                                        ring_radius_m, orders, n_slices)
+    return _gap_field_rms(coefficients, coil_thickness_m)
+
+
+def _gap_field_rms(coefficients, coil_thickness_m):
+    _, wr, Bn, u = coefficients
     t = np.asarray(coil_thickness_m, dtype=float)[..., None, None]
     # B_n^2 decays as sech^2(u g/2) faster than sinh(u t) grows (t < g): cap x where B_n^2 is 0
     x = np.minimum(u * t, 700.0)
@@ -724,3 +740,29 @@ def gap_field_rms_in_coil(remanence_T, recoil_permeability, magnet_length_m, mag
     Bz2 = np.einsum("...s,...sh->...h", wr, Bn**2 * (0.5 + sh)) / Lsum
     Bx2 = np.einsum("...s,...sh->...h", wr, Bn**2 * (sh - 0.5)) / Lsum
     return Bz2, Bx2
+
+
+def rotor_field_summary(remanence_T, recoil_permeability, magnet_length_m, magnet_width_m,
+                        magnet_thickness_m, face_gap_m, pole_pairs, ring_radius_m,
+                        coil_thickness_m, orders, n_slices=5):
+    """`axial_attraction_force`, `flux_per_pole(surface="iron")` and `gap_field_rms_in_coil` in
+    one call, with the slice coefficients they share computed once (same results, bit for bit).
+
+    Parameters are as in `gap_field_rms_in_coil` [SI].
+
+    Returns
+    -------
+    force_N : ndarray, shape (n,)
+        Rotor-to-rotor attraction [N].
+    iron_flux_per_pole_Wb : ndarray, shape (n,)
+        Flux one pole sends into the disc [Wb].
+    Bz2, Bx2 : ndarray, shape (n, H)
+        Squared peak amplitudes of B_z and B_x over the coil region [T^2].
+    """
+    coefficients = _slice_coefficients(remanence_T, recoil_permeability, magnet_length_m,
+                                       magnet_width_m, magnet_thickness_m, face_gap_m, pole_pairs,
+                                       ring_radius_m, orders, n_slices)
+    r, wr, Bn, _ = coefficients
+    phi = _flux_per_pole(coefficients, remanence_T, recoil_permeability, magnet_width_m,
+                         magnet_thickness_m, face_gap_m, pole_pairs, orders, "iron")
+    return (_force(r, wr, Bn), phi) + _gap_field_rms(coefficients, coil_thickness_m)
