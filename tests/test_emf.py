@@ -97,3 +97,26 @@ def test_fast_field_plus_emf_speed_50000_designs():
         best = min(best, time.perf_counter() - t0)
     print(f"\nflux linkage + EMF for {n} designs: {best:.3f} s")
     assert best < 2.0, f"{best:.3f} s"
+
+
+def test_first_samples_and_zero_sequence_harmonics_match_the_full_waveform():
+    # n_first gives the first samples of the period; the zero-sequence harmonics equal the
+    # one-sided FFT of the sampled e0 = mean of the phases (numpy's FFT as the independent method:
+    # peak of harmonic h = 2 |rfft(e0)_h| / M).
+    rng = np.random.default_rng(5)
+    n = 40
+    lam = _lam(n, rng)
+    K = _factors() * rng.uniform(0.5, 1.0, (n, 3, ORDERS.size))  # unbalanced: every order in e0
+    p, rpm, turns = rng.integers(4, 17, n), rng.uniform(50, 900, n), rng.integers(10, 200, n)
+    full = emf.phase_emf_waveform(lam, K, 3, turns, p, rpm, ORDERS, M)
+    first = emf.phase_emf_waveform(lam, K, 3, turns, p, rpm, ORDERS, M, n_first=M // 6)
+    assert first.shape == (n, 3, M // 6)
+    np.testing.assert_allclose(first, full[..., : M // 6], rtol=0, atol=1e-13 * np.abs(full).max())
+    A = emf.zero_sequence_emf_harmonics(lam, K, 3, turns, p, rpm, ORDERS)
+    spectrum = np.fft.rfft(full.mean(axis=1), axis=-1)[:, ORDERS] * 2 / M
+    np.testing.assert_allclose(A, np.abs(spectrum), rtol=1e-11, atol=1e-13 * np.abs(full).max())
+    # balanced (equal coils at 0, 120, 240 degrees): only the triplen orders survive
+    A_bal = emf.zero_sequence_emf_harmonics(lam, _factors(), 3, turns, p, rpm, ORDERS)
+    triplen = ORDERS % 3 == 0
+    assert np.all(A_bal[:, ~triplen] < 1e-12 * A_bal[:, triplen].max())
+    assert np.all(A_bal[:, triplen] > 0)

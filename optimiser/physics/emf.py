@@ -15,7 +15,7 @@ def electrical_speed(pole_pairs, speed_rpm):
 
 
 def phase_emf_waveform(Lambda_n, phase_factors, series_coils_per_path, turns, pole_pairs,
-                       speed_rpm, orders, n_samples=72):
+                       speed_rpm, orders, n_samples=72, n_first=None):
     """EMF of each phase of one parallel path, e = -d lambda / dt.
 
     Parameters
@@ -36,10 +36,14 @@ def phase_emf_waveform(Lambda_n, phase_factors, series_coils_per_path, turns, po
         Harmonic orders [-].
     n_samples : int
         M samples per electrical period, a multiple of 6 [-].
+    n_first : int, optional
+        Compute only the first n_first of the M samples (e.g. M // 6: for a balanced winding and
+        an odd-harmonic field the first sixth of the period holds every line voltage and every
+        conduction pattern of the bridge, see `rectifier.bridge_resistive`) [-].
 
     Returns
     -------
-    e : ndarray, shape (n, 3, M)
+    e : ndarray, shape (n, 3, M) (or (n, 3, n_first))
         Phase EMF of one path [V].
 
     Notes
@@ -54,20 +58,42 @@ def phase_emf_waveform(Lambda_n, phase_factors, series_coils_per_path, turns, po
     Dai Pre, IEE Proc. Electr. Power Appl. 153(3), 2006; from memory).
     """
     n = np.asarray(orders, dtype=float)
-    Lam = np.asarray(Lambda_n, dtype=float)
-    K = np.asarray(phase_factors)
-    if K.ndim == 2:
-        K = K[None]
-    scale = -(electrical_speed(pole_pairs, speed_rpm) * np.asarray(series_coils_per_path, float)
-              * np.asarray(turns, dtype=float))
-    c = K * (Lam * n)[..., None, :]  # (n, 3, H) complex: coefficient of j exp(j n theta)
-    theta = 2 * np.pi * np.arange(n_samples) / n_samples
+    c, scale = _coefficients(Lambda_n, phase_factors, series_coils_per_path, turns, pole_pairs,
+                             speed_rpm, n)
+    theta = 2 * np.pi * np.arange(n_samples if n_first is None else n_first) / n_samples
     arg = np.outer(n, theta)
     # Re(j c e^{j a}) = -Re(c) sin(a) - Im(c) cos(a)
     basis = np.concatenate([-np.sin(arg), -np.cos(arg)], axis=0)  # (2H, M)
     coef = np.concatenate([c.real, c.imag], axis=-1)  # (n, 3, 2H)
     e = coef @ basis
     return e * np.asarray(scale)[..., None, None]
+
+
+def _coefficients(Lambda_n, phase_factors, series_coils_per_path, turns, pole_pairs, speed_rpm, n):
+    """c[ph, n] = K[ph, n] Lambda_n n (complex, (n, 3, H)) and the factor -omega_e N n_s [V/Wb]:
+    lambda_ph = N n_s Re(sum_n Lambda_n K exp(j n theta)), e = scale Re(sum_n j c exp(j n theta))."""
+    K = np.asarray(phase_factors)
+    if K.ndim == 2:
+        K = K[None]
+    scale = -(electrical_speed(pole_pairs, speed_rpm) * np.asarray(series_coils_per_path, float)
+              * np.asarray(turns, dtype=float))
+    c = K * (np.asarray(Lambda_n, dtype=float) * n)[..., None, :]
+    return c, scale
+
+
+def zero_sequence_emf_harmonics(Lambda_n, phase_factors, series_coils_per_path, turns, pole_pairs,
+                                speed_rpm, orders):
+    """Peak amplitude of each harmonic of the zero-sequence EMF e0 = (e_a + e_b + e_c) / 3 [V].
+
+    Parameters are as in `phase_emf_waveform`. Returns shape (n, H), harmonic `orders[h]` on the
+    last axis: e0 = sum_h A_h cos(n_h theta_e + phi_h). Only triplen orders survive for a
+    balanced winding; this is the EMF that drives a delta's circulating current
+    (`rectifier.delta_circulating_from_harmonics`), without sampling the waveform.
+    """
+    n = np.asarray(orders, dtype=float)
+    c, scale = _coefficients(Lambda_n, phase_factors, series_coils_per_path, turns, pole_pairs,
+                             speed_rpm, n)
+    return np.abs(c.mean(axis=-2)) * np.abs(np.asarray(scale))[..., None]
 
 
 def rms(x, axis=-1):
