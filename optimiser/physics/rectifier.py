@@ -25,11 +25,14 @@ import numpy as np
 __all__ = [
     "BridgeResult",
     "bridge_resistive",
+    "bridge_spreads",
+    "bridge_resistive_from_spreads",
     "bridge_inductive",
     "sixth_symmetry_error",
     "peak_line_emf",
     "delta_to_star",
     "delta_circulating_current",
+    "delta_circulating_from_harmonics",
     "cut_in_speed_rpm",
 ]
 
@@ -227,12 +230,24 @@ def _resistive_samples(ea, eb, ec, R, Vd, Vb, Rb):
     return hi, mid, lo, delta, I, three, mt, mt * invR
 
 
-def _resistive_sums(e, R, Vd, Vb, Rb):
-    """Period means of I, I^2, sum_k i_k^2 and sum_k e_k i_k for a block (b, 3, M).
+def bridge_spreads(e):
+    """The two per-sample spreads of a phase EMF set that the resistive bridge depends on.
 
-    Same algebra as `_resistive_samples`, written with in-place operations (hot path)."""
-    V0, inv2, inv3, invR = _coefficients(R, Vd, Vb, Rb)
-    ea, eb, ec = e[:, 0], e[:, 1], e[:, 2]
+    Parameters
+    ----------
+    e : array_like, shape (..., 3, M)
+        Phase EMFs (star or star equivalent) [V].
+
+    Returns
+    -------
+    delta, m : ndarray, shape (..., M)
+        Delta = e_hi - e_lo and m = min(e_hi - e_mid, e_mid - e_lo) of the sorted phases [V]
+        (see `bridge_resistive`). Both scale with the EMF, so a caller that only rescales a set
+        (by Br x rpm in the evaluator's thermal loop) computes them once and passes the scale to
+        `bridge_resistive_from_spreads`.
+    """
+    e = np.asarray(e, dtype=float)
+    ea, eb, ec = e[..., 0, :], e[..., 1, :], e[..., 2, :]
     t1 = np.minimum(ea, eb)
     t2 = np.maximum(ea, eb)
     hi = np.maximum(t2, ec)
@@ -243,11 +258,55 @@ def _resistive_sums(e, R, Vd, Vb, Rb):
     np.subtract(mid, lo, out=mid)                # t1 = mid - lo
     np.minimum(m, mid, out=m)                    # t2 = m
     delta = np.subtract(hi, lo, out=hi)          # hi = delta
-    num = np.subtract(delta, V0, out=lo)         # lo = num
-    I2 = np.multiply(num, inv2, out=t1)          # t1 = I2
+    return delta, m
+
+
+def bridge_resistive_from_spreads(delta, m, scale, R, V_diode, V_batt, R_batt):
+    """`bridge_resistive` of the EMF set scale x e from the spreads of e (`bridge_spreads(e)`).
+
+    Parameters
+    ----------
+    delta, m : array_like, shape (n, M)
+        Spreads of the unscaled set over the samples used (a whole period, or its first sixth
+        for a set with the sixth symmetry of `bridge_resistive`) [V per unit of scale].
+    scale : array_like, shape (n,)
+        Factor >= 0 the EMFs are multiplied by (e.g. Br x rpm) [-].
+    R, V_diode, V_batt, R_batt : array_like, shape (n,) or scalar
+        As in `bridge_resistive` [ohm, V, V, ohm].
+
+    Returns
+    -------
+    BridgeResult
+        As `bridge_resistive` without per-phase values or waveforms; equal to it within rounding
+        (the scale multiplies the spreads instead of the EMFs).
+    """
+    delta, m = np.asarray(delta, dtype=float), np.asarray(m, dtype=float)
+    n = delta.shape[0]
+    s1, R1, Vd1, Vb1, Rb1 = (np.broadcast_to(np.asarray(x, dtype=float), (n,))
+                             for x in (scale, R, V_diode, V_batt, R_batt))
+    sums = np.empty((4, n))
+    for s in range(0, n, _BLOCK):
+        sl = slice(s, s + _BLOCK)
+        k = s1[sl, None]
+        sums[:, sl] = _sums_from_spreads(delta[sl] * k, m[sl] * k, R1[sl, None], Vd1[sl, None],
+                                         Vb1[sl, None], Rb1[sl, None])
+    return _result((n,), sums, R1, Vd1, Vb1, Rb1, None, None, None, np.zeros(n))
+
+
+def _resistive_sums(e, R, Vd, Vb, Rb):
+    """Period means of I, I^2, sum_k i_k^2 and sum_k e_k i_k for a block (b, 3, M)."""
+    return _sums_from_spreads(*bridge_spreads(e), R, Vd, Vb, Rb)
+
+
+def _sums_from_spreads(delta, m, R, Vd, Vb, Rb):
+    """`_resistive_sums` from the spreads; same algebra as `_resistive_samples`, written with
+    in-place operations (hot path: delta and m are overwritten)."""
+    V0, inv2, inv3, invR = _coefficients(R, Vd, Vb, Rb)
+    num = delta - V0
+    I2 = num * inv2
     three = m < R * I2
     np.maximum(I2, 0.0, out=I2)
-    mt = np.multiply(m, three, out=m)            # t2 = m where three, else 0
+    mt = np.multiply(m, three, out=m)            # m where three phases conduct, else 0
     I3 = np.multiply(mt, -0.5)
     I3 += num
     I3 *= inv3
@@ -677,6 +736,31 @@ def delta_circulating_from_spectrum(E0, R_delta, L_zero, omega_e):
     weight[0] = 1.0
     weight[-1] = 1.0
     i_rms = np.sqrt((weight * np.abs(I) ** 2).sum(axis=-1))
+    return i_rms, 3.0 * np.asarray(R_delta, dtype=float) * i_rms**2
+
+
+def delta_circulating_from_harmonics(E0_mean_square, orders, R_delta, L_zero, omega_e):
+    """Circulating current and loss from the zero-sequence EMF's harmonics (see
+    `delta_circulating_current`; `emf.zero_sequence_emf_harmonics` gives them without sampling).
+
+    Parameters
+    ----------
+    E0_mean_square : array_like, shape (..., H)
+        Mean square of each harmonic of e0 (A^2 / 2 for a peak amplitude A) [V^2].
+    orders : array_like, shape (H,)
+        Harmonic order of each entry (multiple of the electrical frequency) [-].
+    R_delta, L_zero, omega_e : array_like, batch shape
+        Branch resistance [ohm], zero-sequence branch inductance [H], electrical speed [rad/s].
+
+    Returns
+    -------
+    i_rms : ndarray [A]
+        sqrt(sum_h E0_h^2 / (R^2 + (h omega_e L)^2)) (Parseval).
+    copper_loss : ndarray, 3 R_delta i_rms^2 [W]
+    """
+    R = _col(R_delta)
+    X = np.asarray(orders, dtype=float) * (_col(omega_e) * _col(L_zero))
+    i_rms = np.sqrt((np.asarray(E0_mean_square, dtype=float) / (R * R + X * X)).sum(axis=-1))
     return i_rms, 3.0 * np.asarray(R_delta, dtype=float) * i_rms**2
 
 
