@@ -135,8 +135,8 @@ class HotState(NamedTuple):
 
     t_coil: np.ndarray        # coil temperature reported [C]
     t_used: np.ndarray        # temperature the last losses were computed at [C]
-    t_mag: np.ndarray         # magnet temperature [C]
-    br: np.ndarray            # remanence at t_mag [T]
+    t_mag: np.ndarray         # magnet temperature at the reported coil temperature [C]
+    br: np.ndarray            # remanence of the last pass (its EMFs and currents) [T]
     resistance: np.ndarray    # hot phase resistance [ohm]
     bridge: rectifier.BridgeResult
     copper_W: np.ndarray      # stator copper loss incl. the delta's circulating current [W]
@@ -417,12 +417,14 @@ class Evaluator:
         n = len(batch)
         mag, coil, delta = geo.mag, geo.coil, fem.delta
         ring_outer = batch.ring_radius_m + coil.hole_radial_m / 2.0 + geo.leg
-        network = thermal.thermal_network(
-            rpm, coil.coil_inner_radius_m, ring_outer, coil.coil_outer_radius_m + STATOR_RIM_M,
-            coil.stator_thickness_m, sc.resin_skin_m, sc.resin_conductivity_W_mK,
-            sc.running_clearance_m, sc.bilge_air_C, disc_radius_m=geo.disc["diameter_m"] / 2.0,
-            disc_thickness_m=geo.disc["thickness_m"])
-        r_th = network.coil_to_air_K_W
+
+        def network_at(t_coil):
+            return thermal.thermal_network(
+                rpm, coil.coil_inner_radius_m, ring_outer, coil.coil_outer_radius_m + STATOR_RIM_M,
+                coil.stator_thickness_m, sc.resin_skin_m, sc.resin_conductivity_W_mK,
+                sc.running_clearance_m, sc.bilge_air_C, disc_radius_m=geo.disc["diameter_m"] / 2.0,
+                disc_thickness_m=geo.disc["thickness_m"], coil_rise_K=t_coil - sc.bilge_air_C)
+
         omega = rpm * 2.0 * np.pi / 60.0
         omega_e = omega * geo.pole_pairs
         f_e = omega_e / (2.0 * np.pi)
@@ -433,6 +435,9 @@ class Evaluator:
         side = np.zeros(n)
         t_coil = hi.copy()
         for it in range(st.thermal_iterations):
+            # natural convection depends on how warm the surfaces are: the network at this T
+            network = network_at(t_coil)
+            r_th = network.coil_to_air_K_W
             t_mag = thermal.magnet_temperature(t_coil, sc.bilge_air_C, network)
             br = mag["remanence_T"] * (1.0 + mag["br_temp_coeff_per_K"] * (t_mag - 20.0))
             resistance = fem.r20 * (1.0 + alpha * (t_coil - 20.0))
@@ -462,10 +467,14 @@ class Evaluator:
             with np.errstate(invalid="ignore", divide="ignore"):
                 secant = (lo * h_hi - hi * h_lo) / (h_hi - h_lo)
             t_next = np.where(np.isnan(h_lo), t_try, secant)
-            inside = (t_next > lo) & (t_next < hi)
+            inside = (t_next >= lo) & (t_next <= hi)  # the bracket's ends may be the root itself
             t_coil = np.where(runaway, RUNAWAY_C, np.where(inside, t_next, 0.5 * (lo + hi)))
-        return HotState(np.minimum(t_heat, RUNAWAY_C), t_coil, t_mag, br, resistance, bridge, copper_W,
-                        eddy_W, runaway, omega)
+        # Magnets at the reported coil temperature, not at the last iterate's. Br stays the one the
+        # last pass's EMFs and currents were computed with (one consistent electrical state, at
+        # most thermal_residual_K of coil temperature away; the loop lands on the root at rest).
+        t_report = np.minimum(t_heat, RUNAWAY_C)
+        t_mag = thermal.magnet_temperature(t_report, sc.bilge_air_C, network_at(t_report))
+        return HotState(t_report, t_coil, t_mag, br, resistance, bridge, copper_W, eddy_W, runaway, omega)
 
     def _results(self, batch: DesignBatch, geo: "Geometry", fem: "FieldEMF", hot: "HotState",
                  rpm) -> Evaluation:

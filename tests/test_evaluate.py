@@ -366,14 +366,15 @@ def test_emf_constant_is_proportional_to_turns_at_equal_coil_thickness(evaluator
 
 # --- the coil temperature fixed point --------------------------------------------------------
 def _heat_balance_resistance(ev, scenario, rpm, disc):
-    """Coil-to-air thermal resistance recomputed from the reported geometry [K/W]."""
+    """Coil-to-air thermal resistance recomputed from the reported geometry and coil rise [K/W]."""
     ring_outer = ev["ring_radius_m"] + ev["coil_hole_radial_m"] / 2 + ev["coil_leg_width_m"]
     net = thermal.thermal_network(rpm, ev["coil_inner_radius_m"], ring_outer,
                                   ev["coil_outer_radius_m"] + STATOR_RIM_M, ev["stator_thickness_m"],
                                   scenario.resin_skin_m, scenario.resin_conductivity_W_mK,
                                   scenario.running_clearance_m, scenario.bilge_air_C,
                                   disc_radius_m=disc["diameter_m"].to_numpy() / 2,
-                                  disc_thickness_m=disc["thickness_m"].to_numpy())
+                                  disc_thickness_m=disc["thickness_m"].to_numpy(),
+                                  coil_rise_K=ev["coil_temperature_C"] - scenario.bilge_air_C)
     return net.coil_to_air_K_W
 
 
@@ -415,7 +416,12 @@ def test_reported_coil_temperature_closes_the_heat_balance(evaluator, scenario, 
     r_th = _heat_balance_resistance(ev, scenario, rpm, catalogs.discs.iloc[batch.disc])
     ok = ~ev["thermal_runaway"]
     balance = scenario.bilge_air_C + r_th * (ev["copper_loss_W"] + ev["eddy_loss_W"])
-    np.testing.assert_allclose(ev["coil_temperature_C"][ok], balance[ok], rtol=1e-9)
+    # The last pass built its network at the iterate, thermal_residual_K from the reported
+    # temperature; natural convection moves R_th by far less than 1 % per kelvin.
+    gap = np.abs(ev["coil_temperature_C"] - balance)
+    print(f"\nheat balance: max gap {gap[ok].max():.2e} K, max residual {ev['thermal_residual_K'][ok].max():.2e} K")
+    assert np.all(gap[ok] <= 1e-9 * ev["coil_temperature_C"][ok]
+                  + 0.01 * ev["thermal_residual_K"][ok] * (ev["coil_temperature_C"][ok] - scenario.bilge_air_C))
     assert np.all(ev["coil_temperature_C"][~ok] == RUNAWAY_C)
 
 

@@ -48,8 +48,11 @@ def phase_emf_waveform(Lambda_n, phase_factors, series_coils_per_path, turns, po
 
     Notes
     -----
-    lambda_ph(theta_e) = N n_s Re(sum_n Lambda_n K[ph, n] exp(j n theta_e)) and
-    d theta_e / dt = omega_e, so e = -omega_e N n_s Re(sum_n j n Lambda_n K exp(j n theta_e)).
+    lambda_ph(theta_e) = N Q_s Re(sum_n Lambda_n K[ph, n] exp(j n theta_e)) with N turns per
+    coil and Q_s series coils per path, and d theta_e / dt = omega_e, so
+    e = -omega_e N Q_s Re(sum_n j n Lambda_n K exp(j n theta_e)).
+    The strands in hand of one turn are conductors in parallel: they carry the current between
+    them and do not multiply the EMF (they appear only in the resistance and the coil's size).
     Computed as one real matrix product (n 3, 2H) x (2H, M).
 
     References

@@ -22,10 +22,14 @@ little inlet near the hub); this and the laminar free-disc law make the
 model lean to the hot side. Radiation is off by default (``emissivity=0``)
 because bare steel and resin finishes vary from 0.1 to 0.9.
 
-Natural convection depends on the surface temperature rise; the caller
-passes its current estimate (``surface_rise_K``), which the evaluator's
-fixed point refines (Nu ~ Ra^(1/4), so a guess within a factor two is
-within 20 % on those paths).
+Natural convection depends on the surface temperature rise. The caller
+either passes an estimate (``surface_rise_K``), or the coil's own rise over
+the air (``coil_rise_K``): the network then takes the rotors' rise (the
+surfaces that shed most of the heat) from its own split of the coil rise,
+two substitutions from half the coil rise (Nu ~ Ra^(1/4) makes the second
+change the conductances by well under 1 %). The evaluator passes the coil
+rise of each pass of its fixed point, so the loop sees one function of the
+coil temperature.
 """
 
 from __future__ import annotations
@@ -150,6 +154,7 @@ def thermal_network(
     winding_conductivity_W_mK=None,
     surface_rise_K=40.0,
     emissivity=0.0,
+    coil_rise_K=None,
 ):
     """Thermal resistances from the coils to bilge air for a batch of designs.
 
@@ -183,6 +188,10 @@ def thermal_network(
         convection Rayleigh numbers and the film temperature [K].
     emissivity : array_like, optional
         Emissivity of stator and rotor surfaces; 0 switches radiation off [-].
+    coil_rise_K : array_like, optional
+        Coil (mean) temperature rise over the air. Given, it replaces
+        ``surface_rise_K``: the surface rise is the rotor node's share of it
+        in this network (two substitutions from half of it) [K].
 
     Returns
     -------
@@ -203,6 +212,15 @@ def thermal_network(
     Churchill & Chu 1975. Mixed convection ``h = (h_F^3 + h_N^3)^(1/3)``:
     S. W. Churchill, AIChE J. 23(1), 10-16, 1977 (from memory).
     """
+    if coil_rise_K is not None:
+        args = (speed_rpm, ring_inner_radius_m, ring_outer_radius_m, stator_outer_radius_m,
+                stator_thickness_m, resin_skin_m, resin_conductivity_W_mK, running_clearance_m, air_C)
+        kw = dict(disc_radius_m=disc_radius_m, disc_thickness_m=disc_thickness_m,
+                  winding_conductivity_W_mK=winding_conductivity_W_mK, emissivity=emissivity)
+        rise = np.maximum(np.asarray(coil_rise_K, dtype=float), 0.0)
+        first = thermal_network(*args, surface_rise_K=0.5 * rise, **kw)
+        share = rotor_share(first)
+        return thermal_network(*args, surface_rise_K=share * rise, **kw)
     omega = np.abs(np.asarray(speed_rpm, dtype=float)) * (np.pi / 30.0)
     omega = np.maximum(omega, 1e-6)  # at rest the gap is regime I: finite limit
     ri = np.asarray(ring_inner_radius_m, dtype=float)
@@ -269,6 +287,28 @@ def stator_thermal_resistance(*args, **kwargs):
     See :func:`thermal_network`.
     """
     return thermal_network(*args, **kwargs).coil_to_air_K_W
+
+
+def rotor_share(network):
+    """Rotor (magnet) rise over the air as a share of the coil's, no rotor heat [-].
+
+    Parameters
+    ----------
+    network : ThermalNetwork
+        From :func:`thermal_network`.
+
+    Returns
+    -------
+    ndarray
+        ``(T_rotor - T_air) / (T_coil - T_air)``, in (0, 1).
+
+    References
+    ----------
+    Voltage divider of the linear network (any circuit text).
+    """
+    n = network
+    r_par = 1.0 / (1.0 / (n.face_to_rotors_K_W + n.rotors_to_air_K_W) + 1.0 / n.face_to_air_K_W)
+    return r_par / (n.coil_to_face_K_W + r_par) * n.rotors_to_air_K_W / (n.face_to_rotors_K_W + n.rotors_to_air_K_W)
 
 
 def magnet_temperature(coil_temperature_C, air_C, network, rotor_heat_W=0.0):

@@ -1,6 +1,6 @@
 """Regenerate tests/data/evaluator_golden.npz: the evaluator's outputs for a fixed set of designs.
 
-    python tests/data/make_evaluator_golden.py
+    python tests/data/make_evaluator_golden.py      # same designs, new outputs
 
 Regenerate ONLY for an intentional change of the physics, and say in the same commit which
 change and why the numbers moved: `tests/test_evaluator_golden.py` holds every value of
@@ -33,8 +33,9 @@ SPEEDS = (0.0, 180.0, 540.0, "mixed")
 WAVEFORM_CASES = ("fits_180", "inductive_180")
 
 
-def cases():
-    """Yield (case name, evaluator, batch, rpm or None) for every stored case."""
+def cases(new_designs=False):
+    """Yield (case name, evaluator, batch, rpm or None) for every stored case: the designs stored
+    in the golden file unless `new_designs` (or no file yet), then drawn afresh."""
     import sys
     sys.path.insert(0, str(ROOT))
     from optimiser.catalogs import load_catalogs
@@ -44,7 +45,7 @@ def cases():
 
     catalogs, scenario = load_catalogs(ROOT / "catalogs"), load_scenario(None)
     ev = Evaluator(catalogs, scenario)
-    stored = np.load(GOLDEN) if GOLDEN.exists() and __name__ != "__main__" else None
+    stored = np.load(GOLDEN) if GOLDEN.exists() and not new_designs else None
     if stored is not None:
         random_b = DesignBatch.from_matrix(stored["designs_random"])
         fits_b = DesignBatch.from_matrix(stored["designs_fits"])
@@ -85,8 +86,13 @@ def outputs(ev, batch, rpm, keep_waveform=False):
 
 
 def main():
+    import argparse
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--new-designs", action="store_true", help="draw the designs afresh (default: keep "
+                    "the stored ones, so a physics change shows as changed outputs of the same designs)")
+    new_designs = ap.parse_args().new_designs
     arrays = {}
-    for name, ev, batch, rpm in cases():
+    for name, ev, batch, rpm in cases(new_designs):
         if name == "_designs":
             random_b, fits_b, mixed = batch
             arrays["designs_random"], arrays["designs_fits"] = random_b.as_matrix(), fits_b.as_matrix()
