@@ -35,7 +35,7 @@ def cluster():
         yield c
 
 
-def _run(path, mapper_factory=None, *, model="fast", seed=3, evaluations=600, population=30, chunk=16):
+def _run(path, mapper_factory=None, *, model="fast", seed=4, evaluations=600, population=30, chunk=16):
     run_dir = create_run(path, None, DEMO_CATALOGS, seed=seed, population=population,
                          budget=Budget(evaluations=evaluations), settings=Settings(field_model=model),
                          chunk=chunk)
@@ -149,7 +149,7 @@ def test_a_dask_worker_lost_mid_run_has_its_chunk_rerun(evaluator, tmp_path, clu
 
 def test_checkpoint_holds_no_mapper_and_resumes_on_another(serial_fast, tmp_path, cluster):
     # Start on Dask, stop after a few generations, resume serially: same front as never stopping.
-    run_dir = create_run(tmp_path / "r", None, DEMO_CATALOGS, seed=3, population=30,
+    run_dir = create_run(tmp_path / "r", None, DEMO_CATALOGS, seed=4, population=30,
                          budget=Budget(evaluations=600), chunk=16)
     run = SearchRun(run_dir)
     mapper = DaskMapper(run.state.problem.evaluator, cluster.scheduler_address)
