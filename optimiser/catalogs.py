@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import csv
 import hashlib
+import io
 import math
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -164,42 +165,50 @@ def _read_catalog(name: str, file: str, data: bytes) -> tuple[pd.DataFrame | Non
     except UnicodeDecodeError as exc:
         return None, [Problem(file, None, None, f"not UTF-8 text ({exc.reason} at byte "
                               f"{exc.start}); save it from the spreadsheet as 'CSV UTF-8'")]
-    lines = [(i, ln) for i, ln in enumerate(text.splitlines(), start=1)
-             if ln.strip() and not ln.lstrip().startswith("#")]
-    if not lines:
+    nul = text.find("\x00")
+    if nul >= 0:
+        return None, [Problem(file, text.count("\n", 0, nul) + 1, None, "holds a NUL byte: not a text "
+                              "CSV; save it from the spreadsheet as 'CSV UTF-8'")]
+    lines = _Lines(text)
+    first = lines.first_line()
+    if first is None:
         return None, [Problem(file, None, None, "file is empty; expected a header line with "
                               "columns " + ", ".join(_file_headers(name)))]
-    header_row, header_line = lines[0]
-    semicolon = header_line.count(";") > header_line.count(",")
+    semicolon = first.count(";") > first.count(",")
     delim = ";" if semicolon else ","
-    header = [h.strip() for h in next(csv.reader([header_line], delimiter=delim))]
-    while header and header[-1] == "":  # spreadsheets pad rows with empty trailing columns
-        header.pop()
     schema = SCHEMAS[name]
     problems: list[Problem] = []
-    columns = _match_header(file, header_row, header, schema, problems)
-    if len(lines) == 1:
+    records, rows, header_row = [], [], None
+    try:
+        found = lines.records(delim)
+        header_row, header = next(found)
+        header = [h.strip() for h in header]
+        while header and header[-1] == "":  # spreadsheets pad rows with empty trailing columns
+            header.pop()
+        columns = _match_header(file, header_row, header, schema, problems)
+        if problems:  # a bad header: its problems alone
+            next(found, None)  # (only to learn whether any row follows it)
+            found = ()
+        for row, cells in found:
+            cells = [c.strip() for c in cells]
+            while len(cells) > len(header) and cells[-1] == "":
+                cells.pop()
+            if not any(cells):  # a row of bare delimiters left by a spreadsheet
+                continue
+            if len(cells) > len(header):
+                problems.append(Problem(file, row, None, f"has {len(cells)} values but the header has "
+                                        f"{len(header)} columns; is there a stray '{delim}'?"))
+                continue
+            cells += [""] * (len(header) - len(cells))
+            raw = dict(zip(header, cells))
+            rec = {c.name: _read_cell(file, row, c, raw, columns, semicolon, problems) for c in schema}
+            records.append(rec)
+            rows.append(row)
+    except csv.Error as exc:
+        problems.append(Problem(file, lines.start, None, f"not readable as CSV ({exc})"))
+    if lines.start == header_row:  # nothing but the header
         problems.append(Problem(file, None, None, f"no data rows below the header (row "
                                 f"{header_row}); add one row per stock item"))
-    if problems:
-        return None, problems
-
-    records, rows = [], []
-    for row, line in lines[1:]:
-        cells = [c.strip() for c in next(csv.reader([line], delimiter=delim))]
-        while len(cells) > len(header) and cells[-1] == "":
-            cells.pop()
-        if not any(cells):  # a row of bare delimiters left by a spreadsheet
-            continue
-        if len(cells) > len(header):
-            problems.append(Problem(file, row, None, f"has {len(cells)} values but the header has "
-                                    f"{len(header)} columns; is there a stray '{delim}'?"))
-            continue
-        cells += [""] * (len(header) - len(cells))
-        raw = dict(zip(header, cells))
-        rec = {c.name: _read_cell(file, row, c, raw, columns, semicolon, problems) for c in schema}
-        records.append(rec)
-        rows.append(row)
     _check_rows(name, file, records, rows, problems)
     if problems:
         return None, problems
@@ -209,6 +218,46 @@ def _read_catalog(name: str, file: str, data: bytes) -> tuple[pd.DataFrame | Non
         if c.kind == "integer" and c.name in keep:
             frame[c.name] = frame[c.name].astype("int64")
     return frame.reset_index(drop=True), []
+
+
+class _Lines:
+    """The physical lines of a CSV text for csv.reader, and the line each record starts on.
+
+    Lines end only at \\n, \\r\\n or \\r (a U+2028 in a cell is text, as in every spreadsheet); a
+    quoted cell may span lines (RFC 4180); blank and '#' comment lines are skipped only where a
+    record would start, never inside a quoted cell.
+    """
+
+    def __init__(self, text):
+        self._text = text
+        self._lines = enumerate(io.StringIO(text, newline=""), start=1)
+        self.start = None
+        self._between = True
+
+    def first_line(self):
+        """The first line that is neither blank nor a comment (the header), or None."""
+        for line in io.StringIO(self._text, newline=""):
+            if line.strip() and not line.lstrip().startswith("#"):
+                return line
+        return None
+
+    def __iter__(self):
+        return self
+
+    def __next__(self):
+        for number, line in self._lines:
+            if self._between:
+                if not line.strip() or line.lstrip().startswith("#"):
+                    continue
+                self.start, self._between = number, False
+            return line
+        raise StopIteration
+
+    def records(self, delimiter):
+        """(starting line, cells) of each record (csv.reader reads no line ahead of a record)."""
+        for cells in csv.reader(self, delimiter=delimiter):
+            self._between = True
+            yield self.start, cells
 
 
 def _match_header(file, row, header, schema, problems) -> dict[str, list[str]]:
@@ -244,6 +293,10 @@ def _read_cell(file, row, c: Col, raw, columns, semicolon, problems):
             continue
         if c.kind in ("text", "choice"):
             if c.kind == "text":
+                if c.name == "id" and not text.isprintable():
+                    problems.append(Problem(file, row, header, f"must be one line of printable text "
+                                            f"(got {text!r}): ids go into design files and commands"))
+                    return None
                 return text
             try:
                 return c.parse(text)
@@ -350,6 +403,18 @@ def _layout(file, row, rec, problems):
     if poles is not None and poles % 2:
         problems.append(Problem(file, row, "poles_per_unit", f"must be even: poles come in N/S "
                                 f"pairs (got {poles})"))
+    if coils is not None and poles is not None and not coils % 3 and not poles % 2:
+        # Q = coils x k coils under p = poles/2 x k pole pairs balance in three phases iff 3 divides
+        # Q / gcd(Q, p) (physics/winding.star_of_slots); that ratio does not depend on k, so a
+        # layout balances at every multiple or at none.
+        spokes = coils // math.gcd(coils, poles // 2)
+        if spokes % 3:
+            why = ("coils = poles, so every coil is in or against phase with every other"
+                   if coils == poles else f"coils / gcd(coils, poles/2) = {spokes}, not a multiple of 3: "
+                   "no three phases 120 electrical degrees apart")
+            problems.append(Problem(file, row, "poles_per_unit", f"{coils} coils / {poles} poles gives no "
+                                    f"balanced three-phase winding at any multiple ({why}); e.g. 3 coils "
+                                    "per 2 or 4 poles do"))
     lo, hi = rec["min_multiple"], rec["max_multiple"]
     if lo is not None and hi is not None and hi < lo:
         problems.append(Problem(file, row, "max_multiple", f"must be >= min_multiple ({lo}) "

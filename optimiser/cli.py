@@ -8,8 +8,10 @@ from __future__ import annotations
 
 import functools
 import json
+import math
 from pathlib import Path
 
+import numpy as np
 import typer
 from rich.console import Console
 from rich.markup import escape as rich_escape
@@ -20,7 +22,7 @@ from .catalogs import catalog_summary, load_catalogs
 from .design import load_design
 from .errors import InputError, Problem
 from .evaluate import Evaluator, Settings
-from .report.evaluation import design_report, rpm_table
+from .report.evaluation import design_report, finite_or_none, rpm_table
 from .scenario import FIELDS, load_scenario, write_template
 from .search import parallel as _parallel
 from .search.run import Budget, SearchRun, StopFlag, create_run, new_run_dir, run_search
@@ -106,7 +108,7 @@ def catalogs_check(
     summary = catalog_summary(cat)
     if as_json:
         typer.echo(json.dumps({"ok": True, "directory": str(directory), "catalogs": summary},
-                              indent=2))
+                              indent=2, allow_nan=False))
         return
     table = Table(title=f"Catalogs in {directory}: all rows valid")
     for name in ("Catalog", "Rows", "Ranges", "File"):
@@ -150,6 +152,27 @@ def scenario_check(file: Path = typer.Argument(None, help="Scenario file; omit f
 # --- afpm evaluate ------------------------------------------------------------------------------
 def _load_inputs(scenario_file, catalogs_dir):
     return load_scenario(scenario_file), load_catalogs(catalogs_dir)
+
+
+class _Shown(float):
+    """A number that prints as "-" when it is not finite (no value: the design cannot be built)."""
+
+    def __format__(self, spec):
+        return float.__format__(self, spec) if math.isfinite(self) else "-"
+
+    def __mul__(self, other):
+        return _Shown(float(self) * other)
+
+    __rmul__ = __mul__
+
+
+def _shown(obj):
+    """`obj` with every float as a _Shown, for the text views."""
+    if isinstance(obj, dict):
+        return {k: _shown(v) for k, v in obj.items()}
+    if isinstance(obj, list):
+        return [_shown(v) for v in obj]
+    return _Shown(obj) if isinstance(obj, float) else obj
 
 
 def _print_report(report, rows):
@@ -230,13 +253,14 @@ def evaluate_command(
     evaluator = Evaluator(cat, sc, Settings(field_model="reference" if reference else "fast",
                                             inductance=inductance))
     batch = load_design(design, cat, evaluator.windings.problem)
-    report = design_report(evaluator, batch)
-    rows = rpm_table(evaluator, batch)
+    with np.errstate(all="ignore"):  # a design that cannot be built has NaN values: shown as such
+        report = design_report(evaluator, batch)
+        rows = rpm_table(evaluator, batch)
     report["rpm_table"] = rows
     if as_json:
-        typer.echo(json.dumps(report, indent=2))
+        typer.echo(json.dumps(finite_or_none(report), indent=2, allow_nan=False))
     else:
-        _print_report(report, rows)
+        _print_report(_shown(report), _shown(rows))
 
 
 # --- afpm search --------------------------------------------------------------------------------

@@ -8,6 +8,7 @@ once as an ``InputError``. The built-in demo is the fictional 10 m sloop "Kittiw
 from __future__ import annotations
 
 import dataclasses
+import math
 import re
 import tomllib
 from dataclasses import dataclass, fields as dc_fields
@@ -320,6 +321,10 @@ def _check(f: Field, value) -> str | None:
     if isinstance(value, bool) or not ok:
         what = "a whole number" if f.kind is int else "a number"
         return f"must be {what} (got {value!r})"
+    if not math.isfinite(value):  # TOML allows nan and inf; no key of a boat means either
+        return f"must be a finite number (got {value!r})"
+    if f.lo is None or f.hi is None:
+        return None
     low_bad = value <= f.lo if f.lo_open else value < f.lo
     if low_bad or value > f.hi:
         lo = f"> {f.lo:g}" if f.lo_open else f">= {f.lo:g}"
@@ -366,6 +371,12 @@ def _cross_checks(v: dict, in_file) -> list[tuple[str, str]]:
         out.append((key, f"profile_boat_speed_kn has {len(v['profile_boat_speed_kn'])} speeds but "
                          f"profile_hours_per_day {len(v['profile_hours_per_day'])} entries: give "
                          "one number of hours per speed"))
+    hours = v["profile_hours_per_day"]
+    if not any(h > 0 for h in hours):
+        out.append(("profile_hours_per_day", "gives no hours at all: at least one speed needs hours "
+                                             "> 0 (the profile's means are weighted by them)"))
+    elif sum(hours) > 24:
+        out.append(("profile_hours_per_day", f"adds up to {sum(hours):g} h, more than the 24 h of a day"))
     measured = ("measured_free_wheel_rpm", "measured_free_wheel_boat_speed_kn")
     given = [k for k in measured if v[k] > 0]
     if given and len(given) < 2:

@@ -23,6 +23,20 @@ def _f(x):
     return float(x)
 
 
+def finite_or_none(obj):
+    """`obj` with every NaN or infinite number replaced by None: strict JSON (RFC 8259 has no NaN).
+
+    A design whose geometry cannot be built has no EMF, current or temperature; JSON says null.
+    """
+    if isinstance(obj, dict):
+        return {k: finite_or_none(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [finite_or_none(v) for v in obj]
+    if isinstance(obj, (float, np.floating)):
+        return float(obj) if np.isfinite(obj) else None
+    return obj
+
+
 def operating_point(ev, i=0):
     return {k: _f(ev[k][i]) for k in OPERATING_KEYS}
 
@@ -64,8 +78,9 @@ def design_report(evaluator: Evaluator, design: DesignBatch) -> dict:
     if sail["thermal_runaway"][0]:
         warnings.append("thermal runaway at the sailing rpm: the coils find no steady temperature")
     force = v("axial_attraction_N")
-    warnings.append(f"the two rotors pull together with about {force:.0f} N: choose bearings and "
-                    "spacers for it and assemble with jacking screws, never by hand")
+    if np.isfinite(force):  # (no value: the design cannot be built, its problems say why)
+        warnings.append(f"the two rotors pull together with about {force:.0f} N: choose bearings and "
+                        "spacers for it and assemble with jacking screws, never by hand")
     report = {
         "design": design.records(evaluator.catalogs)[0],
         "geometry": {k: v(k) for k in (

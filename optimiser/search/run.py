@@ -30,6 +30,7 @@ import datetime as dt
 import hashlib
 import json
 import os
+import re
 import shutil
 import signal
 import tempfile
@@ -44,8 +45,7 @@ from pymoo.core.mixed import MixedVariableGA
 from ..catalogs import load_catalogs
 from ..design import DESIGN_KEYS, DesignBatch
 from ..evaluate import Evaluator, Settings
-from ..errors import InputError
-from ..safe_io import LOCK_FILE, RunLock, fsync_dir, write_atomic
+from ..safe_io import RunLock, fsync_dir, write_atomic
 from ..scenario import load_scenario
 from .folder import (CATALOGS, CHECKPOINT, FRONT_DATA, RUN_JSON, SCENARIO, load_inputs, read_checkpoint,
                      read_meta, sha256_file, write_checkpoint, write_front_data)
@@ -133,33 +133,33 @@ def create_run(run_dir, scenario_path, catalogs_dir, *, seed, population, budget
     _check_free(run_dir)
     run_dir.parent.mkdir(parents=True, exist_ok=True)
     _remove_abandoned(run_dir.parent)
-    tmp = Path(tempfile.mkdtemp(prefix=f".{run_dir.name}{PARTIAL}", dir=run_dir.parent))
+    tmp = Path(tempfile.mkdtemp(prefix=f".{run_dir.name}{PARTIAL}{os.getpid()}-", dir=run_dir.parent))
     try:
-        with RunLock(tmp):  # marks it as being built (see _remove_abandoned)
-            scenario_bytes = source.read_bytes()
-            write_atomic(tmp / SCENARIO, scenario_bytes)
-            (tmp / CATALOGS).mkdir()
-            hashes = {}
-            for name, path in catalogs.files.items():
-                data = path.read_bytes()
-                write_atomic(tmp / CATALOGS / path.name, data)
-                hashes[path.name] = hashlib.sha256(data).hexdigest()
-            meta = {
-                "created": dt.datetime.now().isoformat(timespec="seconds"),
-                "seed": seed, "population": population, "budget": asdict(budget),
-                "settings": asdict(settings),
-                "chunk": int(chunk if chunk is not None else DEFAULT_CHUNK.get(settings.field_model, 0)),
-                "scenario_source": str(source.resolve()), "scenario_sha256": hashlib.sha256(scenario_bytes).hexdigest(),
-                "catalog_source": str(catalogs_dir.resolve()), "catalog_hashes": hashes,
-                "status": "new", "generations": 0, "evaluations": 0, "elapsed_s": 0.0,
-            }
-            write_atomic(tmp / RUN_JSON, json.dumps(meta, indent=2))
-            fsync_dir(tmp / CATALOGS)
-            try:
-                os.rename(tmp, run_dir)  # POSIX: replaces an empty folder, fails on a full one
-            except OSError as exc:
-                raise FileExistsError(f"{run_dir} exists and is not empty: an earlier run is never "
-                                      "overwritten") from exc
+        scenario_bytes = source.read_bytes()
+        write_atomic(tmp / SCENARIO, scenario_bytes)
+        (tmp / CATALOGS).mkdir()
+        hashes = {}
+        for name, path in catalogs.files.items():
+            data = path.read_bytes()
+            write_atomic(tmp / CATALOGS / path.name, data)
+            hashes[path.name] = hashlib.sha256(data).hexdigest()
+        meta = {
+            "created": dt.datetime.now().isoformat(timespec="seconds"),
+            "seed": seed, "population": population, "budget": asdict(budget),
+            "settings": asdict(settings),
+            "chunk": int(chunk if chunk is not None else DEFAULT_CHUNK.get(settings.field_model, 0)),
+            "scenario_source": str(source.resolve()),
+            "scenario_sha256": hashlib.sha256(scenario_bytes).hexdigest(),
+            "catalog_source": str(catalogs_dir.resolve()), "catalog_hashes": hashes,
+            "status": "new", "generations": 0, "evaluations": 0, "elapsed_s": 0.0,
+        }
+        write_atomic(tmp / RUN_JSON, json.dumps(meta, indent=2))
+        fsync_dir(tmp / CATALOGS)
+        try:
+            os.rename(tmp, run_dir)  # POSIX: replaces an empty folder, fails on a full one
+        except OSError as exc:
+            raise FileExistsError(f"{run_dir} exists and is not empty: an earlier run is never "
+                                  "overwritten") from exc
     except BaseException:
         shutil.rmtree(tmp, ignore_errors=True)
         raise
@@ -179,19 +179,24 @@ def _check_free(run_dir):
 
 
 def _remove_abandoned(parent):
-    """Remove run folders left half-built by a process killed while creating them (none is locked)."""
+    """Remove run folders left half-built by processes killed while creating them.
+
+    Their hidden name holds the creator's pid; one whose creator is gone is removed.
+    """
     for partial in parent.glob(f".*{PARTIAL}*"):
-        if not partial.is_dir() or partial.is_symlink():
-            continue
-        if not (partial / LOCK_FILE).is_file():  # killed before its lock existed, or being made now
-            if time.time() - partial.stat().st_mtime > 600:
-                shutil.rmtree(partial, ignore_errors=True)
-            continue
-        try:
-            with RunLock(partial):
-                shutil.rmtree(partial)
-        except (InputError, OSError):
-            continue  # still being built by a live process, or already gone
+        found = re.search(re.escape(PARTIAL) + r"(\d+)-", partial.name)
+        if found and partial.is_dir() and not partial.is_symlink() and not _alive(int(found.group(1))):
+            shutil.rmtree(partial, ignore_errors=True)
+
+
+def _alive(pid):
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except OSError:  # another user's process
+        return True
+    return True
 
 
 class SearchRun:

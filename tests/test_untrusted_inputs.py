@@ -1,0 +1,160 @@
+"""Unusual and adversarial inputs: NaN and infinity, impossible profiles, layouts with no balanced
+winding, CSV cells spanning lines, line separators and NUL bytes, and strict JSON output.
+
+Outside references: TOML 1.0 (nan and inf are valid float literals, so the loader must refuse them
+itself); RFC 8259 (JSON has no NaN or Infinity: Python's json parser with parse_constant refusing
+them is the oracle); RFC 4180 (a quoted field may hold line breaks); Unicode's U+2028 LINE SEPARATOR
+is not a CSV record break (Python's csv module and spreadsheets keep it inside the cell); the
+balance condition of a three-phase fractional-slot winding (Bianchi and Dai Pre 2006, star of slots,
+from memory) cross-checked against this project's own star-of-slots construction.
+"""
+
+import json
+import math
+
+import pytest
+
+from optimiser.catalogs import load_catalogs
+from optimiser.cli import app
+from optimiser.design import load_design
+from optimiser.errors import InputError
+from optimiser.physics.winding import WindingError, star_of_slots
+from optimiser.scenario import FIELDS, load_scenario
+
+FLOAT_KEYS = [f.key for f in FIELDS if f.kind is float]
+FLOAT_LISTS = [f.key for f in FIELDS if f.kind is tuple and f.item is float]
+
+
+def _problems(call, *args):
+    with pytest.raises(InputError) as info:
+        call(*args)
+    return info.value.problems
+
+
+@pytest.mark.parametrize("literal", ["nan", "inf", "-inf"])
+def test_every_float_key_refuses_nan_and_infinity(tmp_path, literal):
+    # One file with every float key set to the literal: each key named, with its line, at once.
+    path = tmp_path / "boat.toml"
+    path.write_text("".join(f"{key} = {literal}\n" for key in FLOAT_KEYS), encoding="utf-8")
+    found = {p.column: p for p in _problems(load_scenario, path)}
+    assert set(FLOAT_KEYS) <= set(found)
+    for line, key in enumerate(FLOAT_KEYS, start=1):
+        assert found[key].row == line and "finite number" in found[key].message
+
+
+@pytest.mark.parametrize("key", FLOAT_LISTS)
+def test_every_float_list_refuses_nan_in_an_element(tmp_path, key):
+    path = tmp_path / "boat.toml"
+    path.write_text(f"{key} = [4.0, nan, 6.0, 7.0]\n", encoding="utf-8")
+    (p,) = _problems(load_scenario, path)
+    assert p.column == key and p.row == 1 and "finite number" in p.message
+
+
+@pytest.mark.parametrize("hours, words", [("[0, 0, 0, 0]", "no hours at all"),
+                                          ("[24, 24, 24, 24]", "adds up to 96 h")])
+def test_profile_hours_must_fit_in_a_day(tmp_path, hours, words):
+    path = tmp_path / "boat.toml"
+    path.write_text(f"profile_hours_per_day = {hours}\n", encoding="utf-8")
+    (p,) = _problems(load_scenario, path)
+    assert p.column == "profile_hours_per_day" and words in p.message
+
+
+@pytest.mark.parametrize("literal", ["nan", "inf"])
+def test_design_file_refuses_a_non_finite_ring(tmp_path, demo_catalogs_dir, literal):
+    cat = load_catalogs(demo_catalogs_dir)
+    path = tmp_path / "d.toml"
+    path.write_text(_design(cat, ring=literal), encoding="utf-8")
+    (p,) = _problems(load_design, path, cat)
+    assert p.column == "ring_radius_mm" and p.row == 4
+
+
+def _design(cat, ring="100"):
+    return (f'magnet = "{cat.magnets["id"][0]}"\nlayout = "{cat.layouts["id"][0]}"\n'
+            f'multiple = {int(cat.layouts["min_multiple"][0])}\nring_radius_mm = {ring}\n'
+            f'disc = "{cat.discs["id"][0]}"\nwire = "{cat.wires["id"][0]}"\nstrands = 1\nturns = 60\n'
+            'parallel_paths = 1\nconnection = "star"\n')
+
+
+def test_evaluate_json_is_strict_for_a_design_that_cannot_be_built(tmp_path, demo_catalogs_dir, runner):
+    # A 10 mm ring: the validator accepts it (it is a number in range); the magnets overlap, so
+    # there is no field, EMF or current: null in JSON, "-" in the table, and the reasons listed.
+    cat = load_catalogs(demo_catalogs_dir)
+    path = tmp_path / "d.toml"
+    path.write_text(_design(cat, ring="10"), encoding="utf-8")
+    result = runner.invoke(app, ["evaluate", "--design", str(path), "--json"])
+    assert result.exit_code == 0
+    report = json.loads(result.stdout, parse_constant=lambda name: pytest.fail(f"bare {name} in JSON"))
+    assert report["cut_in_rpm"] is None and report["feasible"] is False and report["problems"]
+    text = runner.invoke(app, ["evaluate", "--design", str(path)])
+    assert text.exit_code == 0 and "nan" not in text.stdout.lower() and "does not work" in text.stdout
+
+
+# --- catalogs -------------------------------------------------------------------------------------
+def _layouts(catalog_copy, rows):
+    (catalog_copy / "layouts.csv").write_text(
+        "id,coils_per_unit,poles_per_unit,min_multiple,max_multiple,note\n"
+        + "".join(f"{c}:{p},{c},{p},1,4,\n" for c, p in rows), encoding="utf-8")
+
+
+@pytest.mark.parametrize("coils, poles", [(3, 6), (6, 6), (12, 12), (3, 12), (9, 18)])
+def test_a_layout_with_no_balanced_winding_is_refused_by_catalogs_check(catalog_copy, runner, coils, poles):
+    _layouts(catalog_copy, [(3, 4), (coils, poles)])
+    result = runner.invoke(app, ["catalogs", "check", str(catalog_copy)])
+    assert result.exit_code == 2
+    (line,) = [ln for ln in result.stderr.splitlines() if "layouts.csv" in ln]
+    assert "row 3, column poles_per_unit" in line and "no balanced three-phase winding" in line
+
+
+def test_layout_rule_agrees_with_the_star_of_slots_at_every_multiple(catalog_copy):
+    combos = [(c, p) for c in range(3, 31, 3) for p in range(2, 41, 2)]
+    for c, p in combos:
+        _layouts(catalog_copy, [(c, p)])
+        try:
+            load_catalogs(catalog_copy)
+            accepted = True
+        except InputError:
+            accepted = False
+        for k in (1, 2, 3, 4):
+            try:
+                star_of_slots(c * k, p * k)
+                balanced = True
+            except WindingError:
+                balanced = False
+            assert accepted == balanced, (c, p, k)
+
+
+def _note_cell(catalog_copy, note):
+    path = catalog_copy / "discs.csv"
+    path.write_text('id,diameter_mm,thickness_mm,price_each,note\n'
+                    f'd1,300,8,30,"{note}"\n# a comment\nd2,250,6,20,\n', encoding="utf-8", newline="")
+    return path
+
+
+@pytest.mark.parametrize("note", ["first line\nsecond line", "cut\r\nto size", "one\u2028cell"])
+def test_a_cell_with_line_breaks_stays_one_cell(catalog_copy, note):
+    _note_cell(catalog_copy, note)
+    discs = load_catalogs(catalog_copy).discs
+    assert list(discs["id"]) == ["d1", "d2"] and discs["note"][0] == note
+    assert math.isclose(discs["diameter_m"][1], 0.25)
+
+
+def test_a_line_break_inside_an_id_is_refused(catalog_copy, runner):
+    path = catalog_copy / "discs.csv"
+    path.write_text('id,diameter_mm,thickness_mm,price_each\n"d\u20281",300,8,30\nd2,250,6,20\n',
+                    encoding="utf-8")
+    result = runner.invoke(app, ["catalogs", "check", str(catalog_copy)])
+    assert result.exit_code == 2 and f"{path}: row 2, column id: must be one line" in result.stderr
+
+
+def test_a_row_after_a_multi_line_cell_keeps_its_own_row_number(catalog_copy, runner):
+    path = _note_cell(catalog_copy, "a\nb\nc")
+    path.write_text(path.read_text().replace("d2,250,6,20", "d2,250,-6,20"))
+    result = runner.invoke(app, ["catalogs", "check", str(catalog_copy)])
+    assert f"{path}: row 6, column thickness_mm: must be > 0" in result.stderr
+
+
+def test_a_nul_byte_is_refused_with_its_line(catalog_copy, runner):
+    path = catalog_copy / "discs.csv"
+    path.write_bytes(b"id,diameter_mm,thickness_mm,price_each\nd1,300,8,30\nd2,2\x0050,6,20\n")
+    result = runner.invoke(app, ["catalogs", "check", str(catalog_copy)])
+    assert result.exit_code == 2 and f"{path}: row 3: holds a NUL byte" in result.stderr
