@@ -244,13 +244,14 @@ def evaluate_command(
     scenario: Path = typer.Option(None, "--scenario", help="Scenario file; omit for the demo boat."),
     catalogs: Path = typer.Option(Path("catalogs"), "--catalogs", help="Folder of the catalog CSVs."),
     as_json: bool = typer.Option(False, "--json", help="Print one JSON object (SI units) for programs."),
-    reference: bool = typer.Option(False, "--reference", help="Use the 3-D reference field model."),
+    reference: bool = typer.Option(False, "--reference", help="Use the 3-D reference field model and the finite-volume thermal reference."),
     inductance: bool = typer.Option(False, "--inductance", help="Include the phase inductance in the "
                                     "rectifier (commutation overlap; slower, time-domain)."),
 ):
     """Evaluate one design: geometry, winding, EMF, charge current, drag torque, temperatures."""
     sc, cat = _load_inputs(scenario, catalogs)
     evaluator = Evaluator(cat, sc, Settings(field_model="reference" if reference else "fast",
+                                            thermal_model="reference" if reference else "fast",
                                             inductance=inductance))
     batch = load_design(design, cat, evaluator.windings.problem)
     with np.errstate(all="ignore"):  # a design that cannot be built has NaN values: shown as such

@@ -19,7 +19,7 @@ import numpy as np
 
 from .design import DesignBatch
 from .operating import PropellerTable, loaded_operating_point, sailing_profile
-from .physics import electrical, emf, field as fieldmodel, geometry, losses, rectifier, thermal
+from .physics import electrical, emf, field as fieldmodel, geometry, losses, rectifier, thermal, thermal_reference
 from .physics.winding import WindingError, star_of_slots
 
 OBJECTIVES = ("charge_current_A", "drag_torque_Nm", "magnet_cost", "coil_temperature_C")
@@ -64,6 +64,7 @@ class Settings:
     n_slices: int = 5
     n_samples: int = 72
     field_model: str = "fast"  # "fast" (Fourier, quasi-3-D) or "reference" (3-D cuboids + images)
+    thermal_model: str = "fast"  # "fast" (network) or "reference" (finite volumes, one solve a design)
     inductance: bool = False   # include commutation (slower time-domain bridge) instead of resistive
     thermal_iterations: int = 6
     inductance_images: int = 1  # image coils per side summed exactly before the tail integral
@@ -414,8 +415,7 @@ class Evaluator:
         the Illinois variant of regula falsi, bisecting whenever a step would leave the bracket.
         """
         sc, st = self.scenario, self.settings
-        n = len(batch)
-        mag, coil, delta = geo.mag, geo.coil, fem.delta
+        coil = geo.coil
         ring_outer = batch.ring_radius_m + coil.hole_radial_m / 2.0 + geo.leg
 
         def network_at(t_coil):
@@ -425,20 +425,39 @@ class Evaluator:
                 sc.running_clearance_m, sc.bilge_air_C, disc_radius_m=geo.disc["diameter_m"] / 2.0,
                 disc_thickness_m=geo.disc["thickness_m"], coil_rise_K=t_coil - sc.bilge_air_C)
 
+        def fast_at(t_coil):
+            # natural convection depends on how warm the surfaces are: the network at this T
+            network = network_at(t_coil)
+            return network.coil_to_air_K_W, thermal.magnet_temperature(t_coil, sc.bilge_air_C, network)
+
         omega = rpm * 2.0 * np.pi / 60.0
         omega_e = omega * geo.pole_pairs
         f_e = omega_e / (2.0 * np.pi)
+        state = self._fixed_point(batch, geo, fem, rpm, omega_e, f_e, fast_at)
+        if st.thermal_model == "reference":
+            # The resolved reference at the fast model's loss, then again at the loss it gives:
+            # its thermal resistance (hot spot) and rotor share per design, held in the loop.
+            for _ in range(2):
+                r_ref, share = self._reference_thermal(batch, geo, rpm, state.copper_W + state.eddy_W)
+                state = self._fixed_point(batch, geo, fem, rpm, omega_e, f_e, lambda t: (
+                    r_ref, sc.bilge_air_C + share * (t - sc.bilge_air_C)))
+        elif st.thermal_model != "fast":
+            raise ValueError(f"unknown thermal model {st.thermal_model!r}: use 'fast' or 'reference'")
+        return state._replace(omega=omega)
 
+    def _fixed_point(self, batch, geo, fem, rpm, omega_e, f_e, thermal_at):
+        """The fixed point of `_electro_thermal` for one thermal model: `thermal_at(T)` gives the
+        coil-to-air resistance [K/W] and the magnet temperature [C] at coil temperature T."""
+        sc, st = self.scenario, self.settings
+        n = len(batch)
+        mag, delta = geo.mag, fem.delta
         alpha = electrical.COPPER_TEMP_COEFF_20C
         lo, hi = np.full(n, float(sc.bilge_air_C)), np.full(n, RUNAWAY_C)
         h_lo, h_hi = np.full(n, np.nan), np.zeros(n)
         side = np.zeros(n)
         t_coil = hi.copy()
         for it in range(st.thermal_iterations):
-            # natural convection depends on how warm the surfaces are: the network at this T
-            network = network_at(t_coil)
-            r_th = network.coil_to_air_K_W
-            t_mag = thermal.magnet_temperature(t_coil, sc.bilge_air_C, network)
+            r_th, t_mag = thermal_at(t_coil)
             br = mag["remanence_T"] * (1.0 + mag["br_temp_coeff_per_K"] * (t_mag - 20.0))
             resistance = fem.r20 * (1.0 + alpha * (t_coil - 20.0))
             scale = br * rpm
@@ -473,8 +492,39 @@ class Evaluator:
         # last pass's EMFs and currents were computed with (one consistent electrical state, at
         # most thermal_residual_K of coil temperature away; the loop lands on the root at rest).
         t_report = np.minimum(t_heat, RUNAWAY_C)
-        t_mag = thermal.magnet_temperature(t_report, sc.bilge_air_C, network_at(t_report))
-        return HotState(t_report, t_coil, t_mag, br, resistance, bridge, copper_W, eddy_W, runaway, omega)
+        t_mag = thermal_at(t_report)[1]
+        return HotState(t_report, t_coil, t_mag, br, resistance, bridge, copper_W, eddy_W, runaway, None)
+
+    def _reference_thermal(self, batch, geo, rpm, loss_W):
+        """Resolved finite-volume reference (physics/thermal_reference.py) for each design at its
+        loss: hot-spot thermal resistance [K/W] and the rotors' share of the coil rise [-].
+        One sparse solve per design: for re-checks, not the search."""
+        sc, coil = self.scenario, geo.coil
+        across, along = thermal_reference.winding_conductivity(
+            geo.wire["bare_diameter_m"], geo.wire["overall_diameter_m"], sc.coil_fill_factor * np.pi / 4.0,
+            sc.resin_conductivity_W_mK)
+        ring_outer = batch.ring_radius_m + coil.hole_radial_m / 2.0 + geo.leg
+        winding = geo.coils * (coil.coil_area_m2 - coil.hole_area_m2)
+        r_th, share = np.empty(len(batch)), np.empty(len(batch))
+        for i in range(len(batch)):
+            p = max(float(loss_W[i]), 1e-3)  # the resistance at vanishing loss
+            res = thermal_reference.machine_temperature(
+                p, rpm[i], sc.bilge_air_C, ring_radius_m=batch.ring_radius_m[i],
+                magnet_length_m=geo.mag["length_m"][i], magnet_width_m=geo.mag["width_m"][i],
+                magnet_thickness_m=geo.mag["thickness_m"][i], poles=geo.poles[i],
+                coil_inner_radius_m=coil.coil_inner_radius_m[i], coil_outer_radius_m=ring_outer[i],
+                coil_thickness_m=coil.coil_thickness_m[i], winding_area_m2=winding[i],
+                resin_skin_m=sc.resin_skin_m, stator_outer_radius_m=coil.coil_outer_radius_m[i] + STATOR_RIM_M,
+                running_clearance_m=sc.running_clearance_m, disc_radius_m=geo.disc["diameter_m"][i] / 2.0,
+                disc_thickness_m=geo.disc["thickness_m"][i],
+                hub_radius_m=sc.shaft_diameter_m / 2.0 + sc.hub_clearance_m / 2.0,
+                winding_across_W_mK=across[i], winding_along_W_mK=along[i],
+                resin_W_mK=sc.resin_conductivity_W_mK,
+                leg_inner_radius_m=batch.ring_radius_m[i] - coil.hole_radial_m[i] / 2.0,
+                leg_outer_radius_m=batch.ring_radius_m[i] + coil.hole_radial_m[i] / 2.0)
+            r_th[i], share[i] = res.hot_spot_rise_K / p, res.rotor_rise_K / res.hot_spot_rise_K
+        return r_th, share
+
 
     def _results(self, batch: DesignBatch, geo: "Geometry", fem: "FieldEMF", hot: "HotState",
                  rpm) -> Evaluation:

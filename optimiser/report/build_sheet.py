@@ -345,7 +345,7 @@ def build_sheet(run, design_id) -> Sheet:
 
 
 def _recheck(run, one, fast_sail, rep):
-    settings = replace(Settings(**run.meta["settings"]), field_model="reference")
+    settings = replace(Settings(**run.meta["settings"]), field_model="reference", thermal_model="reference")
     ref = Evaluator(run.catalogs, run.scenario, settings).evaluate(one)
     items = [("EMF constant (line, rms per rpm)", "emf_line_rms_per_rpm_V", rep["electrical"]["emf_line_rms_per_rpm_V"] * 1e3,
               1e3, "mV/rpm", 3),
