@@ -423,7 +423,8 @@ class Evaluator:
                 rpm, coil.coil_inner_radius_m, ring_outer, coil.coil_outer_radius_m + STATOR_RIM_M,
                 coil.stator_thickness_m, sc.resin_skin_m, sc.resin_conductivity_W_mK,
                 sc.running_clearance_m, sc.bilge_air_C, disc_radius_m=geo.disc["diameter_m"] / 2.0,
-                disc_thickness_m=geo.disc["thickness_m"], coil_rise_K=t_coil - sc.bilge_air_C)
+                disc_thickness_m=geo.disc["thickness_m"], coil_rise_K=t_coil - sc.bilge_air_C,
+                emissivity=sc.surface_emissivity)
 
         def fast_at(t_coil):
             # natural convection depends on how warm the surfaces are: the network at this T
@@ -521,7 +522,8 @@ class Evaluator:
                 winding_across_W_mK=across[i], winding_along_W_mK=along[i],
                 resin_W_mK=sc.resin_conductivity_W_mK,
                 leg_inner_radius_m=batch.ring_radius_m[i] - coil.hole_radial_m[i] / 2.0,
-                leg_outer_radius_m=batch.ring_radius_m[i] + coil.hole_radial_m[i] / 2.0)
+                leg_outer_radius_m=batch.ring_radius_m[i] + coil.hole_radial_m[i] / 2.0,
+                emissivity=sc.surface_emissivity)
             r_th[i], share[i] = res.hot_spot_rise_K / p, res.rotor_rise_K / res.hot_spot_rise_K
         return r_th, share
 

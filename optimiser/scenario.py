@@ -87,6 +87,8 @@ FIELDS: tuple[Field, ...] = (
           "wire", "coils", scale=_MM),
     Field("resin_conductivity_W_mK", float, 0.25, 0.05, 5, "unfilled casting resin about 0.2, "
           "filled resins up to about 1 (from memory)", "coils"),
+    Field("surface_emissivity", float, 0.0, 0, 1, "radiation off: bare steel is about 0.1-0.3, "
+          "paint and resin 0.8-0.9 (from memory); 0 is the cautious side", "coils"),
     Field("temperature_margin_K", float, 20.0, 0, 100, "kept below the wire's thermal class and "
           "the magnets' maximum temperature", "limits"),
     Field("back_iron_saturation_T", float, 1.6, 0.5, 2.2, "mild steel is well into saturation "
@@ -165,6 +167,7 @@ class Scenario:
     coil_fill_factor: float
     resin_skin_m: float
     resin_conductivity_W_mK: float
+    surface_emissivity: float
     temperature_margin_K: float
     back_iron_saturation_T: float
     turns_min: int

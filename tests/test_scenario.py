@@ -44,7 +44,9 @@ def test_scenario_has_the_spec_attributes():
                                             "profile_boat_speed_kn", "profile_hours_per_day",
                                             # the shaft-line calibration (issue 14)
                                             "measured_free_wheel_rpm", "measured_free_wheel_boat_speed_kn",
-                                            "shaft_line_friction_fitted"}
+                                            "shaft_line_friction_fitted",
+                                            # radiation from the surfaces (issue 13)
+                                            "surface_emissivity"}
 
 
 def test_demo_is_kittiwake_in_si():

@@ -98,3 +98,20 @@ def test_emf_docstring_does_not_multiply_by_strands_in_hand():
     one = emf.phase_emf_waveform(lam, k, 4, 50, 8, 100.0, np.array([1, 3]), n_samples=12)
     two = emf.phase_emf_waveform(lam, k, 8, 50, 8, 100.0, np.array([1, 3]), n_samples=12)
     np.testing.assert_allclose(two, 2 * one, rtol=1e-12)  # linear in series coils per path
+
+
+def test_surface_emissivity_key_radiates_and_is_range_checked(evaluator, fitting, tmp_path):
+    # Radiation only adds a path to the air (Stefan-Boltzmann, linearised): coils run cooler at
+    # rest with a painted finish; an emissivity above 1 is refused with the key named.
+    import dataclasses
+    from optimiser.errors import InputError
+    painted = Evaluator(evaluator.catalogs, dataclasses.replace(evaluator.scenario, surface_emissivity=0.8))
+    some = fitting.take(np.arange(40))
+    bare, hot = evaluator.evaluate(some, rpm=60.0), painted.evaluate(some, rpm=60.0)
+    warm = bare["coil_temperature_C"] > evaluator.scenario.bilge_air_C + 1.0
+    assert warm.sum() > 3
+    assert np.all(hot["coil_temperature_C"][warm] < bare["coil_temperature_C"][warm])
+    bad = tmp_path / "s.toml"
+    bad.write_text("surface_emissivity = 1.5\n")
+    with pytest.raises(InputError, match="surface_emissivity"):
+        load_scenario(bad)
