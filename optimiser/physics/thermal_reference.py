@@ -117,10 +117,11 @@ def winding_conductivity(bare_diameter_m, overall_diameter_m, insulated_fraction
 def nusselt_free_disc(reynolds):
     """Mean Nusselt number ``h R / k`` of one face of a disc rotating in still air.
 
-    Laminar ``0.36 Re^0.5`` (Cobb & Saunders; :func:`thermal.nusselt_free_disc_laminar`) and,
-    above transition, the turbulent mean ``0.015 Re^0.8 - 100 (Re_c / Re)^0.5 ...`` is replaced by
-    the simpler larger-of-the-two ``max(0.36 Re^0.5, 0.015 Re^0.8)`` (the turbulent law overtakes
-    the laminar near Re = 2e5, where transition is observed).
+    ``max(0.36 Re^0.5, 0.015 Re^0.8)``: the laminar law (Cobb & Saunders;
+    :func:`thermal.nusselt_free_disc_laminar`) and a turbulent one, which overtakes it near
+    Re = 2e5, where transition is observed. The turbulent mean over a partly laminar face is
+    lower than the turbulent law alone; taking the larger of the two is a simplification (not
+    checked against a table).
 
     References
     ----------
