@@ -373,9 +373,12 @@ class Evaluator:
             # its means are the period's (see rectifier.bridge_resistive): keep only that sixth.
             e_star_unit = np.ascontiguousarray(e_star_unit[..., : st.n_samples // 6])
         # A delta's terminals carry each branch EMF less the zero-sequence part, which only
-        # drives the circulating current round the delta.
-        line_unit = np.where(delta[:, None, None], e_unit - e_unit.mean(axis=1, keepdims=True),
-                             emf.line_line(e_unit))
+        # drives the circulating current round the delta. The same sixth symmetry puts every line
+        # voltage's values (up to sign) in the first sixth of the period: its peak and rms are
+        # the period's.
+        sixth = e_unit[..., : st.n_samples // 6]
+        line_unit = np.where(delta[:, None, None], sixth - sixth.mean(axis=1, keepdims=True),
+                             emf.line_line(sixth))
         line_peak_per_rpm_per_T = np.max(np.abs(line_unit), axis=(1, 2))
         line_rms_per_rpm_per_T = np.sqrt(np.mean(line_unit ** 2, axis=(1, 2)))
         bz_sq, bx_sq = fieldmodel.gap_field_rms_in_coil(unit_br, mag["recoil_permeability"],
