@@ -381,20 +381,10 @@ class Evaluator:
                              emf.line_line(sixth))
         line_peak_per_rpm_per_T = np.max(np.abs(line_unit), axis=(1, 2))
         line_rms_per_rpm_per_T = np.sqrt(np.mean(line_unit ** 2, axis=(1, 2)))
-        bz_sq, bx_sq = fieldmodel.gap_field_rms_in_coil(unit_br, mag["recoil_permeability"],
-                                                       mag["length_m"], mag["width_m"],
-                                                       mag["thickness_m"], coil.face_gap_m, pole_pairs,
-                                                       batch.ring_radius_m, coil.coil_thickness_m,
-                                                       self.orders, n_slices=st.n_slices)
-        phi_unit = fieldmodel.flux_per_pole(unit_br, mag["recoil_permeability"], mag["length_m"],
-                                            mag["width_m"], mag["thickness_m"], coil.face_gap_m,
-                                            pole_pairs, batch.ring_radius_m, self.orders,
-                                            n_slices=st.n_slices, surface="iron")
-        force_unit = fieldmodel.axial_attraction_force(unit_br, mag["recoil_permeability"],
-                                                       mag["length_m"], mag["width_m"],
-                                                       mag["thickness_m"], coil.face_gap_m, pole_pairs,
-                                                       batch.ring_radius_m, self.orders,
-                                                       n_slices=st.n_slices)
+        force_unit, phi_unit, bz_sq, bx_sq = fieldmodel.rotor_field_summary(
+            unit_br, mag["recoil_permeability"], mag["length_m"], mag["width_m"], mag["thickness_m"],
+            coil.face_gap_m, pole_pairs, batch.ring_radius_m, coil.coil_thickness_m, self.orders,
+            n_slices=st.n_slices)
         r20 = electrical.phase_resistance(geo.path_len, geo.wire["bare_diameter_m"], batch.strands,
                                           geo.paths, 20.0)
         l_coil = electrical.coil_inductance(batch.turns, coil.hole_radial_m, coil.hole_tangential_m,
