@@ -118,8 +118,9 @@ class FieldEMF(NamedTuple):
     """Stage 2: everything per tesla of remanence (and EMF per rpm), plus R20 and L."""
 
     e_unit: np.ndarray            # (n, 3, M) phase EMF per rpm per T [V]
-    e_star_unit: np.ndarray       # star(-equivalent) EMF the bridge sees (first sixth if resistive)
-    e_zero_unit: np.ndarray       # zero-sequence spectrum of the delta designs
+    e_star_unit: np.ndarray       # star(-equivalent) EMF the bridge sees, per rpm per T [V]
+    spreads: tuple | None         # resistive bridge: rectifier.bridge_spreads of its first sixth [V]
+    e_zero_ms_unit: np.ndarray    # delta designs: mean square of each zero-sequence harmonic [V^2]
     delta: np.ndarray             # connection is delta
     line_peak_per_rpm_per_T: np.ndarray
     line_rms_per_rpm_per_T: np.ndarray
@@ -358,20 +359,27 @@ class Evaluator:
         mag, coil, pole_pairs, combo, series = geo.mag, geo.coil, geo.pole_pairs, geo.combo, geo.series
         unit_br = np.ones(n)
         lam = self._flux_linkage(batch, mag, coil, geo.leg, pole_pairs, unit_br)
-        e_unit = emf.phase_emf_waveform(lam, self.windings.phase_factors[combo], series, batch.turns,
-                                        pole_pairs, np.ones(n), self.orders, n_samples=st.n_samples)
+        factors = self.windings.phase_factors[combo]
+        e_unit = emf.phase_emf_waveform(lam, factors, series, batch.turns, pole_pairs, np.ones(n),
+                                        self.orders, n_samples=st.n_samples)
         delta = batch.connection == 1
         # Delta: the bridge sees the star equivalent (linear in the EMF, so converted once) and the
         # zero-sequence (triplen) EMF drives a circulating current round the delta.
         e_star_unit = e_unit.copy()
         if np.any(delta):
             e_star_unit[delta] = rectifier.delta_to_star(e_unit[delta], 1.0, 1.0)[0]
-        e_zero_unit = rectifier.zero_sequence_spectrum(e_unit[delta])
+        # Mean square of each harmonic of the delta's zero-sequence EMF, per (tesla x rpm)^2.
+        e_zero_ms_unit = 0.5 * emf.zero_sequence_emf_harmonics(
+            lam[delta], factors[delta], series[delta], batch.turns[delta], pole_pairs[delta], 1.0,
+            self.orders) ** 2
+        spreads = None
         if not st.inductance:
             # Balanced windings and an odd-harmonic field make the three phases one waveform
             # shifted by thirds of a period, so the first sixth holds every conduction pattern and
-            # its means are the period's (see rectifier.bridge_resistive): keep only that sixth.
-            e_star_unit = np.ascontiguousarray(e_star_unit[..., : st.n_samples // 6])
+            # its means are the period's (see rectifier.bridge_resistive): keep only that sixth,
+            # and of it only the two spreads the resistive bridge depends on (they scale with
+            # Br x rpm like the EMF, so the thermal loop rescales them).
+            spreads = rectifier.bridge_spreads(e_star_unit[..., : st.n_samples // 6])
         # A delta's terminals carry each branch EMF less the zero-sequence part, which only
         # drives the circulating current round the delta. The same sixth symmetry puts every line
         # voltage's values (up to sign) in the first sixth of the period: its peak and rms are
@@ -394,7 +402,7 @@ class Evaluator:
         l_phase = electrical.phase_inductance(l_coil, series, geo.paths)
         active_copper_m3 = (geo.coils * 2.0 * batch.turns * batch.strands * mag["length_m"]
                             * np.pi * geo.wire["bare_diameter_m"] ** 2 / 4.0)
-        return FieldEMF(e_unit, e_star_unit, e_zero_unit, delta, line_peak_per_rpm_per_T,
+        return FieldEMF(e_unit, e_star_unit, spreads, e_zero_ms_unit, delta, line_peak_per_rpm_per_T,
                         line_rms_per_rpm_per_T, bz_sq + bx_sq, phi_unit, force_unit, r20, l_phase,
                         active_copper_m3)
 
@@ -455,9 +463,7 @@ class Evaluator:
             br = mag["remanence_T"] * (1.0 + mag["br_temp_coeff_per_K"] * (t_mag - 20.0))
             resistance = fem.r20 * (1.0 + alpha * (t_coil - 20.0))
             scale = br * rpm
-            bridge, circ_loss = self._bridge(fem.e_star_unit * scale[:, None, None],
-                                             fem.e_zero_unit * scale[delta, None],
-                                             resistance, fem.l_phase, omega_e, delta)
+            bridge, circ_loss = self._bridge(fem, scale, resistance, omega_e)
             copper_W = bridge.copper_loss_W + circ_loss
             eddy_W = losses.eddy_loss_round_wire(f_e[:, None] * self.orders, fem.b_sq * br[:, None] ** 2,
                                                  geo.wire["bare_diameter_m"],
@@ -613,20 +619,25 @@ class Evaluator:
             return 2.0 * wave @ basis.T / st.n_samples
         raise ValueError(f"unknown field model {st.field_model!r}: use 'fast' or 'reference'")
 
-    def _bridge(self, e_star, e_zero_delta, resistance, inductance, omega_e, delta):
-        """Rectifier fed by star (or star-equivalent) EMFs; returns the result and the loss of the
-        delta's circulating current (zero where star)."""
+    def _bridge(self, fem, scale, resistance, omega_e):
+        """Rectifier fed by the star (or star-equivalent) EMFs fem.e_star_unit x scale (the
+        resistive bridge from their scaled spreads); returns the result and the loss of the delta's
+        circulating current (zero where star), driven by the zero-sequence harmonics x scale."""
+        delta, inductance = fem.delta, fem.l_phase
         r_star = np.where(delta, resistance / 3.0, resistance)
         l_star = np.where(delta, inductance / 3.0, inductance)
         circ_loss = np.zeros(len(resistance))
         if np.any(delta):
-            circ_loss[delta] = rectifier.delta_circulating_from_spectrum(
-                e_zero_delta, resistance[delta], inductance[delta], omega_e[delta])[1]
+            circ_loss[delta] = rectifier.delta_circulating_from_harmonics(
+                fem.e_zero_ms_unit * scale[delta, None] ** 2, self.orders, resistance[delta],
+                inductance[delta], omega_e[delta])[1]
         sc = self.scenario
         if self.settings.inductance:
-            result = rectifier.bridge_inductive(e_star, r_star, l_star, omega_e, sc.diode_forward_drop_V,
-                                                sc.battery_charging_V, sc.battery_resistance_ohm)
+            result = rectifier.bridge_inductive(fem.e_star_unit * scale[:, None, None], r_star, l_star,
+                                                omega_e, sc.diode_forward_drop_V, sc.battery_charging_V,
+                                                sc.battery_resistance_ohm)
         else:
-            result = rectifier.bridge_resistive(e_star, r_star, sc.diode_forward_drop_V,
-                                                sc.battery_charging_V, sc.battery_resistance_ohm)
+            result = rectifier.bridge_resistive_from_spreads(*fem.spreads, scale, r_star,
+                                                             sc.diode_forward_drop_V, sc.battery_charging_V,
+                                                             sc.battery_resistance_ohm)
         return result, circ_loss
