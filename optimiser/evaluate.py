@@ -78,11 +78,19 @@ class Evaluation:
     values: dict
     objectives: np.ndarray      # (n, k), natural sense, columns as Evaluator.objectives
     constraints: np.ndarray     # (n, len(CONSTRAINTS)), <= 0 satisfied
-    emf_waveform_V: np.ndarray = field(repr=False)  # (n, 3, M) phase EMF at the operating rpm
+    emf: object = field(repr=False)  # the (n, 3, M) waveform, or a function making it when first read
     profile: dict = field(default_factory=dict, repr=False)  # (n, s) per boat speed, with a propeller
 
     def __getitem__(self, name):
         return self.values[name]
+
+    @property
+    def emf_waveform_V(self):
+        """(n, 3, M) phase EMF at the operating rpm [V]; made when first read (the search never
+        reads it: the evaluation itself needs only the first sixth of the period)."""
+        if callable(self.emf):
+            self.emf = self.emf()
+        return self.emf
 
     @property
     def feasible(self):
@@ -117,7 +125,9 @@ class Geometry(NamedTuple):
 class FieldEMF(NamedTuple):
     """Stage 2: everything per tesla of remanence (and EMF per rpm), plus R20 and L."""
 
-    e_unit: np.ndarray            # (n, 3, M) phase EMF per rpm per T [V]
+    e_unit: np.ndarray            # (n, 3, M/6) phase EMF per rpm per T, first sixth [V]
+    #                               (the whole period with the inductive bridge)
+    whole_period: object          # () -> (n, 3, M) phase EMF per rpm per T over the period [V]
     e_star_unit: np.ndarray       # star(-equivalent) EMF the bridge sees, per rpm per T [V]
     spreads: tuple | None         # resistive bridge: rectifier.bridge_spreads of its first sixth [V]
     e_zero_ms_unit: np.ndarray    # delta designs: mean square of each zero-sequence harmonic [V^2]
@@ -360,8 +370,13 @@ class Evaluator:
         unit_br = np.ones(n)
         lam = self._flux_linkage(batch, mag, coil, geo.leg, pole_pairs, unit_br)
         factors = self.windings.phase_factors[combo]
-        e_unit = emf.phase_emf_waveform(lam, factors, series, batch.turns, pole_pairs, np.ones(n),
-                                        self.orders, n_samples=st.n_samples)
+        def whole_period(n_first=None):
+            return emf.phase_emf_waveform(lam, factors, series, batch.turns, pole_pairs, np.ones(n),
+                                          self.orders, n_samples=st.n_samples, n_first=n_first)
+
+        # The inductive bridge steps through whole periods; everything else needs only the first
+        # sixth (see below); the whole period's waveform is made only if a report reads it.
+        e_unit = whole_period(None if st.inductance else st.n_samples // 6)
         delta = batch.connection == 1
         # Delta: the bridge sees the star equivalent (linear in the EMF, so converted once) and the
         # zero-sequence (triplen) EMF drives a circulating current round the delta.
@@ -402,9 +417,9 @@ class Evaluator:
         l_phase = electrical.phase_inductance(l_coil, series, geo.paths)
         active_copper_m3 = (geo.coils * 2.0 * batch.turns * batch.strands * mag["length_m"]
                             * np.pi * geo.wire["bare_diameter_m"] ** 2 / 4.0)
-        return FieldEMF(e_unit, e_star_unit, spreads, e_zero_ms_unit, delta, line_peak_per_rpm_per_T,
-                        line_rms_per_rpm_per_T, bz_sq + bx_sq, phi_unit, force_unit, r20, l_phase,
-                        active_copper_m3)
+        return FieldEMF(e_unit, whole_period, e_star_unit, spreads, e_zero_ms_unit, delta,
+                        line_peak_per_rpm_per_T, line_rms_per_rpm_per_T, bz_sq + bx_sq, phi_unit,
+                        force_unit, r20, l_phase, active_copper_m3)
 
     def _electro_thermal(self, batch: DesignBatch, geo: "Geometry", fem: "FieldEMF", rpm) -> "HotState":
         """Stage 3: the coil temperature's fixed point T = g(T) = T_air + R_th P(T).
@@ -591,7 +606,8 @@ class Evaluator:
             "magnet_cost": magnet_cost, "disc_cost": 2.0 * disc["price_each"],
             "axial_length_m": 2.0 * disc["thickness_m"] + 2.0 * mag["thickness_m"] + built.face_gap_m,
         }
-        return Evaluation(values, np.empty((n, 0)), constraints, fem.e_unit * (br * rpm)[:, None, None])
+        at_speed = (br * rpm)[:, None, None]
+        return Evaluation(values, np.empty((n, 0)), constraints, lambda: fem.whole_period() * at_speed)
 
     # -- pieces the pipeline switches between ------------------------------------------------------
     def _flux_linkage(self, batch, mag, coil, leg, pole_pairs, br):
