@@ -255,8 +255,8 @@ def evaluate_command(
                                             inductance=inductance))
     batch = load_design(design, cat, evaluator.windings.problem)
     with np.errstate(all="ignore"):  # a design that cannot be built has NaN values: shown as such
-        report = design_report(evaluator, batch)
         rows = rpm_table(evaluator, batch)
+        report = design_report(evaluator, batch, rows)
     report["rpm_table"] = rows
     if as_json:
         typer.echo(json.dumps(finite_or_none(report), indent=2, allow_nan=False))

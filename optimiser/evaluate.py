@@ -80,6 +80,7 @@ class Evaluation:
     constraints: np.ndarray     # (n, len(CONSTRAINTS)), <= 0 satisfied
     emf: object = field(repr=False)  # the (n, 3, M) waveform, or a function making it when first read
     profile: dict = field(default_factory=dict, repr=False)  # (n, s) per boat speed, with a propeller
+    at_fastest: dict = field(default_factory=dict, repr=False)  # (n,) values at the fastest sailing speed
 
     def __getitem__(self, name):
         return self.values[name]
@@ -243,9 +244,10 @@ class Evaluator:
         self.propeller = None
         if scenario.has_propeller:
             # One boat, one propeller: tabulate its turbine curve once for the profile speeds.
+            # The fastest connected boat speed is one more column after the profile's.
             self.boat_speeds_m_s = np.asarray(scenario.profile_boat_speed_kn) * KNOT_M_S
             self.propeller = PropellerTable(
-                self.boat_speeds_m_s, rpm_max=scenario.max_rpm, diameter_m=scenario.propeller_diameter_m,
+                np.append(self.boat_speeds_m_s, scenario.fastest_boat_speed_kn * KNOT_M_S), rpm_max=scenario.max_rpm, diameter_m=scenario.propeller_diameter_m,
                 pitch_m=scenario.propeller_pitch_m, blades=scenario.propeller_blades,
                 area_ratio=scenario.propeller_area_ratio, wake_fraction=scenario.wake_fraction,
                 shaft_friction_Nm=scenario.shaft_line_friction_Nm,
@@ -261,49 +263,76 @@ class Evaluator:
         (`Evaluation.profile`), which gives amp-hours per day and the mean added drag, and the coil
         temperature becomes the hottest over the profile and the sailing rpm.
         """
-        ev = self._at_speed(batch, rpm)
-        if self.propeller is not None and rpm is None:
-            self._add_profile(batch, ev)
+        if rpm is not None:
+            ev = self._at_speed(batch, rpm)
+        else:
+            stages = self._stages(batch)
+            ev = self._at_speed(batch, None, stages)
+            if self.propeller is not None:
+                self._add_profile(batch, ev)
+            else:
+                ev.at_fastest = self._at_speed(batch, self.scenario.fastest_sailing_rpm, stages).values
+            self._connected_limits(ev)
         # Profile objectives exist only for the sailing evaluation (no `rpm` given): NaN otherwise.
         missing = np.full(len(batch), np.nan)
         ev.objectives = np.column_stack([ev.values.get(name, missing) for name in self.objectives])
         return ev
 
+    def _connected_limits(self, ev):
+        """Temperature limits over the whole connected range: the coil and magnet constraints hold
+        at the hotter of the sailing point (with a propeller: the hottest profile speed) and the
+        fastest sailing speed, where the charge current and so the heating is largest."""
+        v, fast = ev.values, ev.at_fastest
+        names = list(CONSTRAINTS)
+        v["fastest_sailing_rpm"] = fast["rpm"]
+        v["coil_temperature_connected_C"] = np.maximum(v["coil_temperature_C"], fast["coil_temperature_C"])
+        v["magnet_temperature_connected_C"] = np.maximum(v["magnet_temperature_C"], fast["magnet_temperature_C"])
+        ev.constraints[:, names.index("coil_too_hot")] = (
+            (v["coil_temperature_connected_C"] - v["coil_limit_C"]) / 100.0)
+        ev.constraints[:, names.index("magnet_too_hot")] = (
+            (v["magnet_temperature_connected_C"] - v["magnet_limit_C"]) / 100.0)
+
     def _add_profile(self, batch, ev):
         """Loaded operating point at each profile speed: where the generator's drag torque meets the
         torque the free-wheeling propeller takes from the water (operating.loaded_operating_point)."""
         sc, prop = self.scenario, self.propeller
-        n, s = len(batch), len(self.boat_speeds_m_s)
-        tiled = batch.take(np.repeat(np.arange(n), s))  # design-major: reshape (n, s)
+        n, s, s1 = len(batch), len(self.boat_speeds_m_s), len(prop.boat_speeds_m_s)
+        tiled = batch.take(np.repeat(np.arange(n), s1))  # design-major: reshape (n, s + 1)
 
         def generator(rpm):
-            return self._at_speed(tiled, np.asarray(rpm).ravel())["drag_torque_Nm"].reshape(n, s)
+            return self._at_speed(tiled, np.asarray(rpm).ravel())["drag_torque_Nm"].reshape(n, s1)
 
-        top = np.full((n, s), float(sc.max_rpm))
+        top = np.full((n, s1), float(sc.max_rpm))
         loaded, free = loaded_operating_point(generator, prop.torque, sc.bearing_drag_Nm, rpm_max=top)
-        at = self._at_speed(tiled, loaded.rpm.ravel())
-        current = at["charge_current_A"].reshape(n, s)
-        drag = -prop.thrust(loaded.rpm)
-        added = drag - (-prop.thrust(free.rpm))
+        at = {k: np.asarray(a).reshape(n, s1) for k, a in self._at_speed(tiled, loaded.rpm.ravel()).values.items()}
+        ev.at_fastest = {k: a[:, s] for k, a in at.items()} | {"stalled": loaded.stalled[:, s],
+                                                               "free_wheel_rpm": free.rpm[:, s]}
+        at = {k: a[:, :s] for k, a in at.items()}  # the profile proper: its s speeds
+        current = at["charge_current_A"]
+        drag = -prop.thrust(loaded.rpm)[:, :s]
+        added = drag - (-prop.thrust(free.rpm)[:, :s])
         amp_hours, mean_added = sailing_profile(current, added, sc.profile_hours_per_day)
-        coil = at["coil_temperature_C"].reshape(n, s)
+        coil = at["coil_temperature_C"]
         ev.profile = {"boat_speed_m_s": np.broadcast_to(self.boat_speeds_m_s, (n, s)),
-                      "rpm": loaded.rpm, "free_wheel_rpm": free.rpm, "stalled": loaded.stalled,
-                      "charge_current_A": current, "drag_torque_Nm": at["drag_torque_Nm"].reshape(n, s),
-                      "drag_force_N": drag, "added_drag_N": added, "coil_temperature_C": coil,
-                      "battery_power_W": at["battery_power_W"].reshape(n, s)}
+                      "rpm": loaded.rpm[:, :s], "free_wheel_rpm": free.rpm[:, :s],
+                      "stalled": loaded.stalled[:, :s], "charge_current_A": current,
+                      "drag_torque_Nm": at["drag_torque_Nm"], "drag_force_N": drag, "added_drag_N": added,
+                      "coil_temperature_C": coil, "battery_power_W": at["battery_power_W"]}
         v = ev.values
         v["amp_hours_per_day"], v["mean_added_drag_N"] = amp_hours, mean_added
         v["coil_temperature_C"] = np.maximum(v["coil_temperature_C"], coil.max(axis=1))
-        v["thermal_runaway"] = v["thermal_runaway"] | at["thermal_runaway"].reshape(n, s).any(axis=1)
-        names = list(CONSTRAINTS)
-        ev.constraints[:, names.index("coil_too_hot")] = (v["coil_temperature_C"] - v["coil_limit_C"]) / 100.0
+        v["thermal_runaway"] = v["thermal_runaway"] | at["thermal_runaway"].any(axis=1)
         # With a propeller the shaft speed is found, not given: a design must charge at the
         # fastest profile speed at least (its cut-in below the propeller's free-wheeling rpm).
-        ev.constraints[:, names.index("cut_in_above_sailing")] = (
-            (v["cut_in_rpm"] - free.rpm.max(axis=1)) / sc.sailing_rpm)
+        ev.constraints[:, list(CONSTRAINTS).index("cut_in_above_sailing")] = (
+            (v["cut_in_rpm"] - free.rpm[:, :s].max(axis=1)) / sc.sailing_rpm)
 
-    def _at_speed(self, batch: DesignBatch, rpm=None) -> Evaluation:
+    def _stages(self, batch: DesignBatch) -> tuple:
+        """The stages that do not depend on the shaft speed (geometry, field and EMF)."""
+        geo = self._geometry(batch)
+        return geo, self._field_and_emf(batch, geo)
+
+    def _at_speed(self, batch: DesignBatch, rpm=None, stages=None) -> Evaluation:
         """The pipeline at one shaft speed per design (objectives filled in by `evaluate`).
 
         Four stages, each a method returning a small record the next one reads:
@@ -312,8 +341,7 @@ class Evaluator:
         """
         n = len(batch)
         rpm = np.broadcast_to(np.asarray(self.scenario.sailing_rpm if rpm is None else rpm, float), (n,)).copy()
-        geo = self._geometry(batch)
-        fem = self._field_and_emf(batch, geo)
+        geo, fem = self._stages(batch) if stages is None else stages
         hot = self._electro_thermal(batch, geo, fem, rpm)
         return self._results(batch, geo, fem, hot, rpm)
 
@@ -599,6 +627,7 @@ class Evaluator:
             "drag_torque_Nm": torque, "efficiency": efficiency,
             "coil_temperature_C": t_coil, "thermal_runaway": hot.runaway,
             "thermal_residual_K": np.abs(t_coil - hot.t_used), "coil_limit_C": limit_coil,
+            "magnet_limit_C": mag["max_temp_C"],
             "cut_in_rpm": cut_in, "back_iron_flux_density_T": b_disc,
             "axial_attraction_N": fem.force_unit * br ** 2,
             "wire_length_m": geo.total_wire, "copper_mass_kg": copper_kg,

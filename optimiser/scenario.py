@@ -60,6 +60,12 @@ FIELDS: tuple[Field, ...] = (
           "amperes (Schottky about 0.5 V)", "battery"),
     Field("sailing_rpm", float, 180.0, 10, 3000, "free-wheeling shaft at about 6 knots (common "
           "practice: roughly 150-250 rpm at 5-7 knots)", "shaft"),
+    Field("fastest_sailing_rpm", float, 240.0, 10, 6000, "fastest shaft speed with the "
+          "generator connected while sailing (no propeller model; at least sailing_rpm): a "
+          "displacement boat's hull speed, 1.34 sqrt(waterline in ft) kn, is about 7.1 kn for the "
+          "demo's 8.5 m waterline, and gusts or surfing take it briefly to about 8 kn; a free-"
+          "wheeling shaft's rpm grows in proportion to boat speed, so 180 rpm x 8 / 6 (common "
+          "practice, from memory)", "shaft"),
     Field("max_rpm", float, 1500.0, 10, 6000, "highest shaft speed under engine: sets the open-"
           "circuit voltage and the strength checks", "shaft"),
     Field("shaft_diameter_mm", float, 25.0, 5, 200, "propeller shaft of a 10 m yacht", "shaft",
@@ -123,6 +129,11 @@ FIELDS: tuple[Field, ...] = (
     Field("shaft_line_friction_Nm", float, 1.0, 0, 100, "stern gland, cutless bearing and "
           "gearbox in neutral (estimate; measure yours: the two measured_free_wheel keys fit it "
           "and replace this value)", "propeller"),
+    Field("fastest_boat_speed_kn", float, 0.0, 0, 30, "0: the top profile speed plus 1 kn. "
+          "Fastest boat speed with the generator connected; the shaft runs at its loaded "
+          "operating point there. Gusts and surfing take a displacement boat briefly about 1 kn "
+          "past the speed it sails for hours near hull speed (common practice, from memory)",
+          "propeller"),
     Field("measured_free_wheel_rpm", float, 0.0, 0, 6000, "0: not measured. The shaft speed "
           "you measured sailing steadily in flat water, engine in neutral and no generator "
           "load on the shaft; with the boat speed below it fits shaft_line_friction_Nm",
@@ -154,6 +165,7 @@ class Scenario:
     battery_resistance_ohm: float
     diode_forward_drop_V: float
     sailing_rpm: float
+    fastest_sailing_rpm: float
     max_rpm: float
     shaft_diameter_m: float
     bearing_drag_Nm: float
@@ -185,6 +197,7 @@ class Scenario:
     propeller_area_ratio: float
     wake_fraction: float
     shaft_line_friction_Nm: float
+    fastest_boat_speed_kn: float
     measured_free_wheel_rpm: float
     measured_free_wheel_boat_speed_kn: float
     water_density_kg_m3: float
@@ -250,6 +263,8 @@ def _parse(text: str, file: str, source: str) -> Scenario:
             problems.append(problem(lines.get(key), key, msg))
     if problems:
         raise InputError(problems)
+    if merged["fastest_boat_speed_kn"] == 0:
+        merged["fastest_boat_speed_kn"] = max(merged["profile_boat_speed_kn"]) + 1.0
     scenario = Scenario(source=source, **{f.attr: merged[f.key] * f.scale if f.kind is float
                                           else tuple(merged[f.key]) if f.kind is tuple
                                           else merged[f.key] for f in FIELDS})
@@ -356,7 +371,15 @@ def _cross_checks(v: dict, in_file) -> list[tuple[str, str]]:
                                 f"(got {lo:g})"))
 
     order("battery_nominal_V", "battery_charging_V")
+    before = len(out)
     order("sailing_rpm", "max_rpm", strict=True)
+    if len(out) == before:  # one problem per wrong speed
+        order("sailing_rpm", "fastest_sailing_rpm")
+    if len(out) == before:
+        order("fastest_sailing_rpm", "max_rpm", strict=True)
+    if v["fastest_boat_speed_kn"] > 0:
+        order("fastest_boat_speed_kn", "fastest_boat_speed_kn", lo=max(v["profile_boat_speed_kn"]),
+              lo_name="the top of profile_boat_speed_kn")
     order("turns_min", "turns_max")
     order("strands_min", "strands_max")
     order("ring_radius_min_mm", "ring_radius_max_mm")

@@ -49,17 +49,22 @@ def test_loaded_rpm_balances_generator_and_propeller_torque(sample, boat):
     # At a stable operating point the generator's drag torque equals the torque the propeller
     # takes from the water (both evaluated independently at the reported rpm).
     evaluator, batch, ev = sample
-    p = ev.profile
-    moving = ~p["stalled"] & (p["rpm"] < 0.999 * boat.max_rpm)
-    assert moving.sum() > 100
-    prop = evaluator.propeller.torque(p["rpm"])
-    n, s = p["rpm"].shape
-    gen = evaluator.evaluate(batch.take(np.repeat(np.arange(n), s)), rpm=p["rpm"].ravel())
+    # ... at the profile speeds and at the fastest connected boat speed (the table's last column)
+    p, f = ev.profile, ev.at_fastest
+    rpm = np.column_stack([p["rpm"], f["rpm"]])
+    moving = ~np.column_stack([p["stalled"], f["stalled"]]) & (rpm < 0.999 * boat.max_rpm)
+    assert moving.sum() > 100 and moving[:, -1].sum() > 20
+    prop = evaluator.propeller.torque(rpm)
+    n, s = rpm.shape
+    gen = evaluator.evaluate(batch.take(np.repeat(np.arange(n), s)), rpm=rpm.ravel())
     gen = gen["drag_torque_Nm"].reshape(n, s)
     scale = np.maximum(np.abs(gen), 0.1)
     assert np.max(np.abs(gen - prop)[moving] / scale[moving]) < 0.02
     # loading the shaft never speeds it up
     assert np.all(p["rpm"] <= p["free_wheel_rpm"] * 1.0001)
+    assert np.all(f["rpm"] <= f["free_wheel_rpm"] * 1.0001)
+    # the faster boat turns the loaded shaft faster than the top profile speed does
+    assert np.all(f["rpm"][moving[:, -1]] >= p["rpm"][moving[:, -1], -1])
 
 
 def test_extracted_power_below_betz(sample, boat):

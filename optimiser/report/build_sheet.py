@@ -221,8 +221,8 @@ def build_sheet(run, design_id) -> Sheet:
     one = batch.take([i])
     evaluator = run.evaluator
     sc, cat = run.scenario, run.catalogs
-    rep = design_report(evaluator, one)
     rows = rpm_table(evaluator, one)
+    rep = design_report(evaluator, one, rows)
     combo = int(evaluator.windings.index(one.layout, one.multiple)[0])
     winding = evaluator.windings.windings[combo]
     d, g, w, s = rep["design"], rep["geometry"], rep["winding"], rep["at_sailing"]
@@ -334,8 +334,10 @@ def build_sheet(run, design_id) -> Sheet:
               f"--catalogs {run.dir / 'catalogs'} --scenario {run.dir / 'scenario.toml'}"),
         ("code", design_toml(d))]))
 
-    head = [f"Boat: {sc.name}; battery {sc.battery_nominal_V:g} V; sailing at {sc.sailing_rpm:g} rpm, "
-            f"up to {sc.max_rpm:g} rpm under engine.",
+    fastest = (f"connected up to {sc.fastest_boat_speed_kn:g} kn" if sc.has_propeller
+               else f"connected up to {sc.fastest_sailing_rpm:g} rpm")
+    head = [f"Boat: {sc.name}; battery {sc.battery_nominal_V:g} V; sailing at {sc.sailing_rpm:g} rpm "
+            f"({fastest}), up to {sc.max_rpm:g} rpm under engine.",
             f"Run {run.dir} ({run.meta.get('status', '?')}, {run.meta.get('evaluations', '?')} designs "
             f"evaluated); written {dt.date.today().isoformat()} by afpm pick {shlex.quote(str(run.dir))} {design_id}.",
             f"Design {design_id}: {w['coils']} coils / {poles} poles, {d['magnet']}, ring {d['ring_radius_mm']:g} mm, "

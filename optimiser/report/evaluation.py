@@ -48,14 +48,52 @@ def rpm_sweep(evaluator: Evaluator, design: DesignBatch, rpms):
 
 
 def sweep_speeds(scenario, n=13):
-    """Speeds for the rpm table: 0 to twice the sailing rpm, then up to the maximum shaft rpm."""
+    """Speeds for the rpm table: 0 to twice the sailing rpm, then up to the maximum shaft rpm;
+    the sailing rpm and (without a propeller) the fastest sailing rpm among them."""
     low = np.linspace(0.0, 2.0 * scenario.sailing_rpm, n)
     high = np.linspace(2.0 * scenario.sailing_rpm, scenario.max_rpm, 5)[1:]
-    return np.unique(np.concatenate([low, high, [scenario.sailing_rpm]]))
+    fastest = [] if scenario.has_propeller else [scenario.fastest_sailing_rpm]
+    return np.unique(np.concatenate([low, high, [scenario.sailing_rpm], fastest]))
 
 
-def design_report(evaluator: Evaluator, design: DesignBatch) -> dict:
-    """Nested, JSON-ready description of one design (a batch of one), SI units throughout."""
+def _over_limits(point, coil_limit_C, magnet_limit_C):
+    """What exceeds a limit at one operating point (a dict of OPERATING_KEYS), as text, or ''."""
+    out = []
+    if point["thermal_runaway"]:
+        out.append("thermal runaway")
+    elif point["coil_temperature_C"] > coil_limit_C:
+        out.append(f"coils {point['coil_temperature_C']:.0f} C (limit {coil_limit_C:.0f} C)")
+    if point["magnet_temperature_C"] > magnet_limit_C:
+        out.append(f"magnets {point['magnet_temperature_C']:.0f} C (limit {magnet_limit_C:.0f} C)")
+    return ", ".join(out)
+
+
+def connected_range_warnings(report, rows=()) -> list[str]:
+    """Warnings for the connected range (from rest up to the fastest sailing speed): the fastest
+    sailing point itself, and every rpm-table row inside the range that exceeds a limit."""
+    fast, limits = report["at_fastest_sailing"], report["limits"]
+    top = fast["rpm"]
+    where = (f"{report['inputs']['fastest_boat_speed_kn']:g} kn ({top:.0f} rpm loaded)"
+             if "fastest_boat_speed_kn" in report["inputs"] else f"{top:.0f} rpm")
+    out = []
+    over = _over_limits(fast, limits["coil_C"], limits["magnet_C"])
+    if over:
+        out.append(f"connected while sailing at the fastest speed, {where}: {over}; disconnect the "
+                   "generator above a lower speed, or choose a design that meets the limits there")
+    bad = [(r["rpm"], _over_limits(r, limits["coil_C"], limits["magnet_C"])) for r in rows
+           if 0 < r["rpm"] <= top * (1 + 1e-9)]
+    bad = [f"{rpm:.0f} rpm: {text}" for rpm, text in bad if text]
+    if bad:
+        out.append(f"inside the connected range (up to {where}) the rpm table exceeds a limit at "
+                   + "; ".join(bad))
+    return out
+
+
+def design_report(evaluator: Evaluator, design: DesignBatch, rows=()) -> dict:
+    """Nested, JSON-ready description of one design (a batch of one), SI units throughout.
+
+    `rows` (the design's `rpm_table`, if computed) adds a warning for each row inside the
+    connected range that exceeds a limit."""
     sc = evaluator.scenario
     sail = evaluator.evaluate(design)
     motor = evaluator.evaluate(design, rpm=sc.max_rpm)
@@ -108,8 +146,12 @@ def design_report(evaluator: Evaluator, design: DesignBatch) -> dict:
         "inputs": {"battery_charging_voltage_V": sc.battery_charging_V,
                    "battery_resistance_ohm": sc.battery_resistance_ohm,
                    "diode_forward_drop_V": sc.diode_forward_drop_V, "bilge_air_C": sc.bilge_air_C,
-                   "sailing_rpm": sc.sailing_rpm, "max_rpm": sc.max_rpm},
+                   "sailing_rpm": sc.sailing_rpm, "max_rpm": sc.max_rpm,
+                   **({"fastest_boat_speed_kn": sc.fastest_boat_speed_kn} if sc.has_propeller
+                      else {"fastest_sailing_rpm": sc.fastest_sailing_rpm})},
+        "limits": {"coil_C": v("coil_limit_C"), "magnet_C": v("magnet_limit_C")},
         "at_sailing": operating_point(sail),
+        "at_fastest_sailing": operating_point(sail.at_fastest),
         "at_max_rpm": operating_point(motor),
         "cut_in_rpm": v("cut_in_rpm"),
         "model": {"field_model": evaluator.settings.field_model,
@@ -118,6 +160,7 @@ def design_report(evaluator: Evaluator, design: DesignBatch) -> dict:
         "problems": sail.problems(0),
         "warnings": warnings,
     }
+    warnings[-1:-1] = connected_range_warnings(report, rows)  # before the rotor-force note
     if sail.profile:
         report["sailing_profile"] = profile_rows(sc, sail.profile)
         report["amp_hours_per_day"] = v("amp_hours_per_day")

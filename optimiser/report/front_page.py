@@ -69,7 +69,8 @@ def _take(ev, i):
     sl = slice(i, i + 1)
     return Evaluation({k: np.asarray(v)[sl] for k, v in ev.values.items()}, ev.objectives[sl],
                       ev.constraints[sl], ev.emf_waveform_V[sl],
-                      {k: np.asarray(v)[sl] for k, v in ev.profile.items()})
+                      {k: np.asarray(v)[sl] for k, v in ev.profile.items()},
+                      {k: np.asarray(v)[sl] for k, v in ev.at_fastest.items()})
 
 
 def front_reports(evaluator, batch):

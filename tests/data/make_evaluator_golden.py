@@ -16,6 +16,8 @@ model unless said):
 * `fits`: 100 random designs that pass the six fit checks but fail another constraint, and the
   feasible ones (at sailing rpm) among 40 000 random decodes (26), at the same speeds;
 * `inductive`: 40 of the fitting designs with `Settings(inductance=True)` at sailing rpm;
+* `fits_sailing`: the fitting designs with `evaluate(batch)` (sailing rpm, and the fastest sailing
+  rpm of the connected range in `at_fastest`);
 * `propeller`: 30 fitting designs with a 16 in propeller in the scenario, `evaluate(batch)`
   (the loaded operating point per profile speed).
 """
@@ -64,6 +66,7 @@ def cases(new_designs=False):
     for name, b in (("random", random_b), ("fits", fits_b)):
         for rpm in SPEEDS:
             yield f"{name}_{rpm if rpm == 'mixed' else int(rpm)}", ev, b, mixed[name] if rpm == "mixed" else rpm
+    yield "fits_sailing", ev, fits_b, None  # evaluate(batch): sailing and fastest sailing rpm
     small = fits_b.take(np.arange(80, 120))
     yield "inductive_180", Evaluator(catalogs, scenario, Settings(inductance=True)), small, 180.0
     boat = dataclasses.replace(scenario, propeller_diameter_m=0.406)
@@ -82,6 +85,7 @@ def outputs(ev, batch, rpm, keep_waveform=False):
     if keep_waveform:
         out["emf_waveform_V"] = res.emf_waveform_V
     out.update({f"profile/{k}": np.asarray(v) for k, v in res.profile.items()})
+    out.update({f"at_fastest/{k}": np.asarray(v) for k, v in res.at_fastest.items()})
     return out
 
 
