@@ -32,7 +32,8 @@ RTOL = 1e-12
 FLOOR = 1e-3
 
 
-OPERAND_SCALE = {"values/thermal_residual_K": "values/coil_temperature_C"}
+OPERAND_SCALE = {"values/thermal_residual_K": "values/coil_temperature_C",
+                 "at_fastest/thermal_residual_K": "at_fastest/coil_temperature_C"}
 
 
 def mismatch(value, stored, operand=None):
