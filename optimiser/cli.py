@@ -403,11 +403,17 @@ def _write_front_page_after_search(search):
 
 @app.command("front")
 @input_command
-def front_command(run: Path = typer.Argument(..., help="Run folder made by afpm search.")):
+def front_command(
+    run: Path = typer.Argument(..., help="Run folder made by afpm search."),
+    show: int = typer.Option(None, "--show", min=1, help="Draw at most this many designs (default "
+                             "300): each objective's extremes, the best trade-off region and a "
+                             "spread of the rest; each drawn design stands for its nearest "
+                             "neighbours, which the page can show. Every design stays in front.csv."),
+):
     """(Re)draw RUN/front.html: the Pareto front as an interactive page that opens offline."""
-    from .report.front_page import write_front_page
+    from .report.front_page import DEFAULT_SHOW, write_front_page
 
-    path = write_front_page(run)
+    path = write_front_page(run, show=show or DEFAULT_SHOW)
     typer.echo(f"wrote {path}; open it in a browser, click a design, then: afpm pick {run} ID")
 
 
@@ -417,33 +423,44 @@ def pick_command(
     run: Path = typer.Argument(..., help="Run folder made by afpm search."),
     design_id: str = typer.Argument(None, metavar="[ID]", help="Design id from front.csv or front.html, "
                                     "e.g. D123; omit to pick by rule."),
-    most: str = typer.Option(None, "--most", help="Pick the design with the most charge, or the least "
-                             "torque, cost or temperature: charge | torque | cost | temperature "
-                             "(default charge)."),
+    most: str = typer.Option(None, "--most", metavar="NAME", help="Pick the best design by NAME: any "
+                             "objective or value column of front.csv (e.g. amp_hours_per_day, "
+                             "mean_added_drag_N, efficiency, cut_in_rpm), the most where more is "
+                             "better, the least where less is; or a short word: charge | torque | "
+                             "cost | temperature. Default: the scenario's first objective."),
+    balanced: bool = typer.Option(False, "--balanced", help="Pick the best compromise of the "
+                                  "scenario's objectives by TOPSIS (Hwang and Yoon 1981, equal weights)."),
+    at_least: list[str] = typer.Option(None, "--at-least", metavar="NAME=VALUE", help="Only designs "
+                                       "whose front.csv column NAME is at least VALUE (in the "
+                                       "column's own unit, as in front.csv); repeatable."),
+    at_most: list[str] = typer.Option(None, "--at-most", metavar="NAME=VALUE", help="Only designs whose "
+                                      "front.csv column NAME is at most VALUE; repeatable."),
     max_torque: float = typer.Option(None, "--max-torque", help="Only designs with drag torque at the "
                                      "sailing rpm at most this [N m]."),
     max_magnet_cost: float = typer.Option(None, "--max-magnet-cost", help="Only designs whose magnet "
-                                          "bill is at most this [scenario currency]."),
+                                          "bill is at most this [in the scenario's currency]."),
     max_coil_temp: float = typer.Option(None, "--max-coil-temp", help="Only designs whose coils stay at "
-                                        "or below this at the sailing rpm [C]."),
+                                        "or below this [\N{DEGREE SIGN}C]."),
     min_charge: float = typer.Option(None, "--min-charge", help="Only designs charging at least this at "
                                      "the sailing rpm [A]."),
 ):
     """Pick a front design (by ID or by rule), print its summary and write its build sheet
-    (build-ID.html for printing, build-ID.md) into the run folder."""
+    (build-ID.html for printing, build-ID.md, its templates and design file) into the run folder."""
     from .report.build_sheet import NoMatch, pick, write_build_sheet
-    from .report.front_page import open_run
+    from .report.front_data import load_front
 
-    search = open_run(run)
-    if design_id is not None and any(x is not None for x in (most, max_torque, max_magnet_cost,
-                                                             max_coil_temp, min_charge)):
-        raise typer.BadParameter("give an ID or a rule (--most and limits), not both")
+    front = load_front(run)
+    rules = (most, max_torque, max_magnet_cost, max_coil_temp, min_charge)
+    if design_id is not None and (any(x is not None for x in rules) or balanced or at_least or at_most):
+        raise typer.BadParameter("give an ID or a rule (--most, --balanced and limits), not both")
     try:
-        _, chosen = pick(search, design_id, most, max_torque, max_magnet_cost, max_coil_temp, min_charge)
+        chosen = pick(front, design_id, most, max_torque, max_magnet_cost, max_coil_temp, min_charge,
+                      at_least or (), at_most or (), balanced)
     except NoMatch as exc:
         typer.echo(f"no match: {exc}", err=True)
         raise typer.Exit(EXIT_INPUT)
-    html_path, md_path, sheet = write_build_sheet(search, chosen)
+    typer.echo(f"picked {chosen.design_id}: {chosen.rule}")
+    html_path, md_path, sheet = write_build_sheet(front, chosen.design_id, chosen)
     console = Console()
     for line in sheet.lines:
         console.print(line, markup=False, highlight=False)
@@ -454,9 +471,16 @@ def pick_command(
             table = Table(title=sec.title)
             for j in cols:
                 table.add_column(t.header[j], justify="right" if t.align[j] == "r" else "left", overflow="fold")
-            for row in t.rows + ([t.foot] if t.foot else []):
+            unpriced = [row for row in t.rows if row[-1] == "not priced"]
+            for row in [r for r in t.rows if r not in unpriced] + ([t.foot] if t.foot else []):
                 table.add_row(*[rich_escape(str(row[j])) for j in cols])
             console.print(table)
+            for row in unpriced:
+                console.print(f"{row[0]}: {row[1]}", markup=False, highlight=False)
+            for block in sec.blocks[1:]:
+                if block[0] == "warn":
+                    for w in block[1]:
+                        console.print("warning: " + w, markup=False, highlight=False)
         if sec.title == "Warnings for this design":
             for w in sec.blocks[0][1]:
                 console.print("warning: " + w, markup=False, highlight=False)

@@ -17,19 +17,20 @@ from pathlib import Path
 import numpy as np
 
 from ..design import design_toml
-from ..evaluate import STATOR_RIM_M, Evaluator, Settings
+from ..evaluate import RUNAWAY_C, STATOR_RIM_M, Evaluator, Settings
 from ..physics.winding import winding_table
 from ..report.evaluation import design_report, rpm_table
 from ..safe_io import RunLock, write_atomic
 from . import drawing
-from .front_page import open_run
+from .front_data import (ALIASES, DEG_C, column_factor, column_label, column_name, column_sense, format_value, load_front,
+                         plural, resolve_column, temperature_text, topsis)
 
-__all__ = ["RULES", "NoMatch", "pick", "Sheet", "build_sheet", "sheet_html", "sheet_markdown",
+__all__ = ["RULES", "NoMatch", "Choice", "pick", "parse_limit", "Sheet", "build_sheet", "sheet_html", "sheet_markdown",
            "write_build_sheet", "CAUTIONS"]
 
 RULES = {"charge": ("charge_current_A", +1, "A"), "torque": ("drag_torque_Nm", -1, "N m"),
-         "cost": ("magnet_cost", -1, ""), "temperature": ("coil_temperature_C", -1, "C")}
-"""--most WORD -> (value, +1 most / -1 least, unit)."""
+         "cost": ("magnet_cost", -1, ""), "temperature": ("coil_temperature_C", -1, DEG_C)}
+"""--most WORD -> (value, +1 most / -1 least, unit): the four short words, kept as aliases."""
 
 CAUTIONS = [
     "Rotating parts: fit a fixed guard over the rotors and the shaft coupling before the shaft turns; "
@@ -54,48 +55,103 @@ class NoMatch(Exception):
 
 
 # --- picking -----------------------------------------------------------------------------------
-def _front(run):
-    ids, batch = run.front_designs()
-    ev = run.evaluator.evaluate(batch) if len(batch) else None
-    return ids, batch, ev
+@dataclass
+class Choice:
+    """What `pick` chose and why: the index into the front, its id, the rule in words, the limits."""
+
+    index: int
+    design_id: str
+    rule: str
+    limits: list = field(default_factory=list)   # (column, "min" | "max", bound)
+    order: list = field(default_factory=list)    # front indices meeting the limits, best first
 
 
-def pick(run, design_id=None, most=None, max_torque=None, max_magnet_cost=None, max_coil_temp=None,
-         min_charge=None):
-    """Index into the front and id of the chosen design.
+def _spans(front, names):
+    cur = front.scenario.currency
+    return "; ".join(f"{column_name(n)} {format_value(n, front.columns[n].min(), cur)} to "
+                     f"{format_value(n, front.columns[n].max(), cur)}" for n in names)
 
-    By id, or the design with the most (charge) or least (torque, cost, temperature) of `most` among
-    those within the limits (drag torque [N m], magnet bill [currency], coil temperature [C], charge
-    current [A]); ties go to the design found first. Raises NoMatch.
+
+def parse_limit(text, columns, option):
+    """'NAME=VALUE' -> (front.csv column, value); NoMatch naming the option and the columns."""
+    name, sep, value = str(text).partition("=")
+    try:
+        if not sep:
+            raise ValueError
+        bound = float(value)
+        if not math.isfinite(bound):
+            raise ValueError
+    except ValueError:
+        raise NoMatch(f"{option} {text!r}: write NAME=VALUE, e.g. {option} coil_temperature_C=120") from None
+    return _column(name.strip(), columns, option), bound
+
+
+def _column(name, columns, option):
+    numeric = [c for c, v in columns.items() if v.dtype.kind == "f"]
+    try:
+        found = resolve_column(name, numeric)
+    except KeyError:
+        raise NoMatch(f"{option} {name!r}: not a column of front.csv; use one of "
+                      f"{', '.join([*ALIASES, *numeric])}") from None
+    if found not in numeric:
+        raise NoMatch(f"{option} {name!r}: not a numeric column of this run's front.csv")
+    return found
+
+
+def pick(front, design_id=None, most=None, max_torque=None, max_magnet_cost=None, max_coil_temp=None,
+         min_charge=None, at_least=(), at_most=(), balanced=False) -> Choice:
+    """Choose a front design by id or by a rule, from front.csv's values.
+
+    Rules: within the limits (the four named caps and any `at_least`/`at_most` "NAME=VALUE" on a
+    front.csv column), either the best-compromise design of the scenario's objectives (`balanced`,
+    TOPSIS: `front_data.topsis`) or the best of `most` (any objective or value column, or one of
+    the short words charge, torque, cost, temperature): the most where more is better, the least
+    where less is (`front_data.column_sense`). Without a rule: the best of the scenario's first
+    objective. Ties go to the design found first. Raises NoMatch.
     """
-    ids, batch, ev = _front(run)
+    ids, cols = front.ids, front.columns
     if not ids:
-        raise NoMatch(f"the run in {run.dir} has no feasible design on its front yet")
+        raise NoMatch(f"the run in {front.dir} has no feasible design on its front yet")
     if design_id is not None:
-        if design_id not in ids:
-            raise NoMatch(f"no design {design_id!r} on the front of {run.dir}; its ids run "
+        wanted = str(design_id).strip().upper()
+        wanted = "D" + wanted if wanted.isdigit() else wanted
+        if wanted not in ids:
+            raise NoMatch(f"no design {design_id!r} on the front of {front.dir}; its ids run "
                           f"{', '.join(ids[:8])}{' ...' if len(ids) > 8 else ''} (see front.csv)")
-        return ids.index(design_id), design_id
-    most = most or "charge"
-    if most not in RULES:
-        raise NoMatch(f"--most {most!r}: use one of {', '.join(RULES)}")
+        return Choice(ids.index(wanted), wanted, f"design {wanted} by id")
+    if balanced and most:
+        raise NoMatch("give --most or --balanced, not both")
+    limits = [(n, "max", b) for n, b in (("drag_torque_Nm", max_torque), ("magnet_cost", max_magnet_cost),
+                                          ("coil_temperature_C", max_coil_temp)) if b is not None]
+    limits += [("charge_current_A", "min", min_charge)] if min_charge is not None else []
+    limits += [(n, "min", b) for n, b in (parse_limit(t, cols, "--at-least") for t in at_least)]
+    limits += [(n, "max", b) for n, b in (parse_limit(t, cols, "--at-most") for t in at_most)]
+    cur = front.scenario.currency
     keep = np.ones(len(ids), bool)
-    limits = []
-    for name, bound, sign, label in (("drag_torque_Nm", max_torque, 1, "drag torque <= {} N m"),
-                                     ("magnet_cost", max_magnet_cost, 1, "magnet bill <= {}"),
-                                     ("coil_temperature_C", max_coil_temp, 1, "coil temperature <= {} C"),
-                                     ("charge_current_A", min_charge, -1, "charge current >= {} A")):
-        if bound is not None:
-            keep &= sign * ev[name] <= sign * bound
-            limits.append(label.format(f"{bound:g}"))
+    for name, kind, bound in limits:
+        keep &= cols[name] >= bound if kind == "min" else cols[name] <= bound
+    words = [f"{column_name(name)} {'>=' if kind == 'min' else '<='} {format_value(name, bound, cur)}"
+             for name, kind, bound in limits]
     if not keep.any():
-        spans = "; ".join(f"{key} {ev[v].min():.3g} to {ev[v].max():.3g}{(' ' + u) if u else ''}"
-                          for key, (v, _, u) in RULES.items())
-        raise NoMatch(f"no design on the front has {' and '.join(limits)}. The front spans: {spans}")
-    value, sense, _ = RULES[most]
-    score = np.where(keep, sense * ev[value], -np.inf)
-    i = int(np.argmax(score))
-    return i, ids[i]
+        names = list(dict.fromkeys([*front.objectives, *(n for n, _, _ in limits)]))
+        raise NoMatch(f"no design on the front has {' and '.join(words)}. The front spans: "
+                      f"{_spans(front, names)}")
+    if balanced:
+        F = front.minimised()
+        _, closeness = topsis(F[keep])
+        score = np.full(len(ids), -np.inf)
+        score[keep] = closeness
+        rule = ("the best compromise of " + ", ".join(front.objectives) +
+                " (TOPSIS, Hwang and Yoon 1981, equal weights)")
+    else:
+        name = _column(most, cols, "--most") if most else front.objectives[0]
+        sense = column_sense(name)
+        score = np.where(keep, sense * cols[name], -np.inf)
+        rule = f"the {'most' if sense > 0 else 'least'} {column_name(name)} ({name})"
+    if words:
+        rule += " with " + " and ".join(words)
+    order = [int(i) for i in np.argsort(-score, kind="stable") if keep[i]]
+    return Choice(order[0], ids[order[0]], rule, limits, order)
 
 
 # --- the sheet as data ---------------------------------------------------------------------------
@@ -131,6 +187,11 @@ def _mm(x, digits=1):
     return f"{x * 1e3:.{digits}f} mm"
 
 
+def _size(x):
+    """A stock size in mm to four significant figures: 50.8 (2 in) stays 50.8, 20 stays 20."""
+    return f"{x * 1e3:.4g}"
+
+
 def _is_demo(catalogs, name):
     path = catalogs.files.get(name)
     try:
@@ -161,8 +222,8 @@ def _parts(rep, cat, sc, row):
     n_mag = 2 * w["poles"]
     buy_kg = m["copper_mass_kg"] * (1.0 + sc.wire_margin)
     lines = [
-        ["Magnets", f"{d['magnet']} ({mag['grade']}, {_mm(mag['length_m'], 0)} x {_mm(mag['width_m'], 0)} "
-                    f"x {_mm(mag['thickness_m'], 0)}): 2 rotors x {w['poles']} poles", f"{n_mag}",
+        ["Magnets", f"{d['magnet']} ({mag['grade']}, {_size(mag['length_m'])} x {_size(mag['width_m'])} "
+                    f"x {_size(mag['thickness_m'])} mm): 2 rotors x {w['poles']} poles", f"{n_mag}",
          _money(float(mag["price_each"])), _money(n_mag * float(mag["price_each"]))],
         ["Magnet wire", f"{d['wire']} (bare {wire['bare_diameter_m'] * 1e3:.3f} mm): {m['wire_length_m']:.0f} m, "
                         f"{m['copper_mass_kg']:.2f} kg computed, plus the scenario's "
@@ -191,8 +252,9 @@ def _wiring(rep, winding):
     for letter in "ABC":
         for path in range(1, a + 1):
             coils = [r for r in rows if r["phase"] == letter and r["path"] == path]
-            steps = " -> ".join(f"coil {r['coil']} ({'S-F' if r['polarity'] > 0 else 'F-S'})" for r in coils)
-            chains.append(f"Phase {letter}, path {path}: terminal {letter}1 -> {steps} -> end {letter}2")
+            steps = " \N{RIGHTWARDS ARROW} ".join(f"coil {r['coil']} ({'S-F' if r['polarity'] > 0 else 'F-S'})" for r in coils)
+            chains.append(f"Phase {letter}, path {path}: terminal {letter}1 \N{RIGHTWARDS ARROW} {steps} "
+                          f"\N{RIGHTWARDS ARROW} end {letter}2")
     if w["connection"] == "star":
         join = ("Star: join the three ends A2, B2 and C2 at one insulated star point (connect it to "
                 "nothing else); A1, B1 and C1 go to the three AC inputs of the bridge rectifier.")
@@ -203,8 +265,8 @@ def _wiring(rep, winding):
              "phase together (every A1 to every A1, and so on) and their ends likewise, before the star "
              "or delta." if a > 1 else
              "One path per phase: every coil of a phase is in series.")
-    summary = [f"{w['coils']} coils, {w['coils'] // 3} per phase; {w['series_coils_per_path']} coils in "
-               f"series per path; {a} parallel path(s) per phase; {w['connection']} connection.",
+    summary = [f"{w['coils']} {plural(w['coils'], 'coil')}, {w['coils'] // 3} per phase; {w['series_coils_per_path']} coils in "
+               f"series per path; {a} parallel {plural(a, 'path')} per phase; {w['connection']} connection.",
                "S-F: the coil's start lead towards the phase terminal; F-S (a reversed coil): its finish "
                "lead towards the terminal. Every coil is wound the same way, start lead on the same side.",
                paths, join,
@@ -214,8 +276,9 @@ def _wiring(rep, winding):
     return table, chains, summary
 
 
-def build_sheet(run, design_id) -> Sheet:
-    """Collect every fact of the build sheet of front design `design_id` of `run`."""
+def build_sheet(run, design_id, choice: Choice | None = None) -> Sheet:
+    """Collect every fact of the build sheet of front design `design_id` of `run` (a FrontData);
+    `choice` (from `pick`) lets the 3-D re-check say when it breaks one of the user's limits."""
     ids, batch = run.front_designs()
     i = ids.index(design_id)
     one = batch.take([i])
@@ -274,7 +337,7 @@ def build_sheet(run, design_id) -> Sheet:
         ["turns per coil", str(d["turns"])],
         ["strands in hand", str(d["strands"])],
         ["wire", f"{d['wire']} ({wire['standard']}), bare {wire['bare_diameter_m'] * 1e3:.3f} mm, "
-                 f"overall {wire['overall_diameter_m'] * 1e3:.3f} mm, class {wire['thermal_class_C']:.0f} C"],
+                 f"overall {wire['overall_diameter_m'] * 1e3:.3f} mm, class {wire['thermal_class_C']:.0f} {DEG_C}"],
         ["mean turn length", _mm(g["mean_turn_length_m"], 0)],
         ["wire per coil (all strands)", f"{g['mean_turn_length_m'] * d['turns'] * d['strands']:.1f} m"],
         ["coil radial extent", f"{_mm(g['coil_inner_radius_m'])} to {_mm(g['coil_outer_radius_m'])}"],
@@ -294,7 +357,7 @@ def build_sheet(run, design_id) -> Sheet:
     sections.append(Section("Wiring", [("table", table), ("list", chains), ("list", summary)]))
 
     perf = Table(["rpm", "open-circuit line [V rms]", "charge [A]", "battery [W]", "drag torque [N m]",
-                  "efficiency [%]", "coil [C]"],
+                  "efficiency [%]", f"coil [{DEG_C}]"],
                  [[f"{r['rpm']:.0f}", f"{r['open_circuit_line_rms_V']:.1f}", f"{r['charge_current_A']:.2f}",
                    f"{r['battery_power_W']:.1f}", f"{r['drag_torque_Nm']:.3f}", f"{100 * r['efficiency']:.0f}",
                    "runaway" if r["thermal_runaway"] else f"{r['coil_temperature_C']:.0f}"] for r in rows],
@@ -302,16 +365,17 @@ def build_sheet(run, design_id) -> Sheet:
     plot = drawing.performance_svg(rows, sc.sailing_rpm, rep["cut_in_rpm"])
     sections.append(Section("Performance against shaft speed", [
         ("p", f"Cut-in (charging starts): {rep['cut_in_rpm']:.0f} rpm. Battery at {sc.battery_charging_V:g} V, "
-              f"bilge air {sc.bilge_air_C:g} C, {sc.diode_forward_drop_V:g} V per diode."),
+              f"bilge air {sc.bilge_air_C:g} {DEG_C}, {sc.diode_forward_drop_V:g} V per diode."),
         ("table", perf), ("svg", "performance", plot)]))
 
     if "sailing_profile" in rep:
         boat = Table(["boat speed [kn]", "hours/day", "shaft [rpm]", "free-wheeling [rpm]", "charge [A]",
-                      "drag torque [N m]", "drag on boat [N]", "added drag [N]", "coil [C]"],
+                      "drag torque [N m]", "drag on boat [N]", "added drag [N]", f"coil [{DEG_C}]"],
                      [[f"{r['boat_speed_kn']:g}", f"{r['hours_per_day']:g}",
                        "stalled" if r["stalled"] else f"{r['rpm']:.0f}", f"{r['free_wheel_rpm']:.0f}",
                        f"{r['charge_current_A']:.2f}", f"{r['drag_torque_Nm']:.2f}", f"{r['drag_force_N']:.0f}",
-                       f"{r['added_drag_N']:.0f}", f"{r['coil_temperature_C']:.0f}"]
+                       f"{r['added_drag_N']:.0f}",
+                       "runaway" if r.get("thermal_runaway") else f"{r['coil_temperature_C']:.0f}"]
                       for r in rep["sailing_profile"]], "rrrrrrrrr", key="profile")
         sections.append(Section("Over the sailing profile", [
             ("p", f"With the {sc.propeller_diameter_m * 1e3:.0f} mm propeller turning the shaft as a water "
@@ -320,8 +384,10 @@ def build_sheet(run, design_id) -> Sheet:
                   "meets the torque the propeller takes from the water."),
             ("table", boat)]))
 
+    recheck, ref = _recheck(run, one, s, rep)
+    cap_notes = _recheck_limits(run, ref, choice) if choice is not None else []
     sections.append(Section("Re-checked with the 3-D reference field model", [
-        ("table", _recheck(run, one, s, rep)),
+        ("table", recheck), *[("warn", [note]) for note in cap_notes],
         ("p", "The search ranks designs with the fast field model; the reference model integrates the 3-D "
               "field of every magnet block and its images in the discs. Differences of a few per cent are "
               "expected; a large one is a reason to measure the EMF of a test coil before winding them all.")]))
@@ -332,7 +398,7 @@ def build_sheet(run, design_id) -> Sheet:
     sections.append(Section("Design file", [
         ("p", "Save as a .toml file to re-evaluate it with afpm evaluate --design FILE "
               f"--catalogs {run.dir / 'catalogs'} --scenario {run.dir / 'scenario.toml'}"),
-        ("code", design_toml(d))]))
+        ("code", design_file_text(run, design_id, d))]))
 
     fastest = (f"connected up to {sc.fastest_boat_speed_kn:g} kn" if sc.has_propeller
                else f"connected up to {sc.fastest_sailing_rpm:g} rpm")
@@ -341,29 +407,95 @@ def build_sheet(run, design_id) -> Sheet:
             f"Run {run.dir} ({run.meta.get('status', '?')}, {run.meta.get('evaluations', '?')} designs "
             f"evaluated); written {dt.date.today().isoformat()} by afpm pick {shlex.quote(str(run.dir))} {design_id}.",
             f"Design {design_id}: {w['coils']} coils / {poles} poles, {d['magnet']}, ring {d['ring_radius_mm']:g} mm, "
-            f"{d['turns']} turns x {d['strands']} of {d['wire']}, {d['parallel_paths']} path(s), {d['connection']}."
+            f"{d['turns']} turns x {d['strands']} of {d['wire']}, {d['parallel_paths']} {plural(d['parallel_paths'], 'path')}, {d['connection']}."
             + ("" if rep["feasible"] else " DOES NOT MEET EVERY LIMIT: see the warnings.")]
     return Sheet(design_id, f"Build sheet: design {design_id}", head, sections)
 
 
+def design_file_text(run, design_id, record) -> str:
+    """The design file `pick` writes: where it came from as comments (run, scenario, catalog hashes
+    from run.json), then the design keys. `afpm evaluate --run RUN --id ID` re-evaluates it with
+    exactly that scenario and snapshot."""
+    sc = run.scenario
+    hashes = run.meta.get("catalog_hashes", {})
+    lines = [f"# design {design_id} of the run in {run.dir}, written by afpm pick",
+             f"# scenario: {sc.name} (the run's copy: {run.dir / 'scenario.toml'})",
+             f"# catalogs: the run's snapshot in {run.dir / 'catalogs'}, sha256:"]
+    lines += [f"#   {name} {digest}" for name, digest in sorted(hashes.items())]
+    lines += [f"# re-evaluate with: afpm evaluate --run {shlex.quote(str(run.dir))} --id {design_id}"]
+    return "\n".join(_comment_safe(x) for x in lines) + "\n" + design_toml(record)
+
+
+def _comment_safe(line):
+    """One TOML comment line: no line breaks or control characters from a folder or boat name."""
+    return "".join(ch if ch.isprintable() else "?" for ch in line)
+
+
 def _recheck(run, one, fast_sail, rep):
+    """Fast against 3-D reference model on the EMF constant, the scenario's objectives (but the
+    magnet bill, the same in both) and the coil temperature; (table, reference evaluation)."""
     settings = replace(Settings(**run.meta["settings"]), field_model="reference", thermal_model="reference")
     ref = Evaluator(run.catalogs, run.scenario, settings).evaluate(one)
-    items = [("EMF constant (line, rms per rpm)", "emf_line_rms_per_rpm_V", rep["electrical"]["emf_line_rms_per_rpm_V"] * 1e3,
-              1e3, "mV/rpm", 3),
-             ("charge current", "charge_current_A", fast_sail["charge_current_A"], 1.0, "A", 3),
-             ("drag torque", "drag_torque_Nm", fast_sail["drag_torque_Nm"], 1.0, "N m", 3),
-             ("coil temperature", "coil_temperature_C", fast_sail["coil_temperature_C"], 1.0, "C", 1)]
+    names = [n for n in dict.fromkeys(["emf_line_rms_per_rpm_V", *run.objectives, "coil_temperature_C"])
+             if n != "magnet_cost"]
+    fast_of = {"emf_line_rms_per_rpm_V": rep["electrical"]["emf_line_rms_per_rpm_V"]}
     rows = []
-    for label, key, fast, scale, unit, digits in items:
-        reference = float(ref[key][0]) * scale
+    for key in names:
+        fast = fast_of.get(key, rep.get(key, fast_sail.get(key)))
+        if fast is None:
+            continue
+        scale = column_factor(key)
+        digits = 1 if "temperature" in key else 3
+        fast, reference = float(fast) * scale, float(ref[key][0]) * scale
         # A value that prints as zero (e.g. the charge current of a design just at cut-in) has
         # no meaningful percent difference.
         diff = (reference - fast) / fast * 100.0 if abs(fast) >= 0.5 * 10.0 ** -digits else float("nan")
-        rows.append([f"{label} [{unit}]", f"{fast:.{digits}f}", f"{reference:.{digits}f}",
-                     f"{diff:+.1f}" if math.isfinite(diff) else "-"])
+        shown = ["runaway" if "temperature" in key and x >= RUNAWAY_C else f"{x:.{digits}f}"
+                 for x in (fast, reference)]
+        rows.append([column_label(key, run.scenario.currency), *shown,
+                     f"{diff:+.1f}" if math.isfinite(diff) and "runaway" not in shown else "-"])
     return Table([f"At {run.scenario.sailing_rpm:g} rpm", "fast model", "reference model",
-                  "difference [%]"], rows, "lrrr", key="recheck")
+                  "difference [%]"], rows, "lrrr", key="recheck"), ref
+
+
+RECHECK_CANDIDATES = 8
+"""Next designs (in the rule's order) re-checked with the 3-D model, in one batch, when the chosen
+one breaks a limit there (a reference evaluation costs about half a second a design)."""
+
+
+def _broken(values, limits, i):
+    """The limits (of `limits`) the row i of evaluation `values` breaks, as (name, kind, bound, value)."""
+    out = []
+    for name, kind, bound in limits:
+        if name in values:
+            v = float(values[name][i])
+            if (kind == "min" and v < bound) or (kind == "max" and v > bound):
+                out.append((name, kind, bound, v))
+    return out
+
+
+def _recheck_limits(run, ref, choice):
+    """Notes when the chosen design's 3-D re-check breaks a limit the user gave, naming the next
+    design of the rule's order whose re-check keeps every limit (or saying none of the next few does)."""
+    cur = run.scenario.currency
+    broken = _broken(ref.values, choice.limits, 0)
+    if not broken:
+        return []
+    said = "; ".join(f"{column_name(name)} {format_value(name, v, cur)} with the 3-D model, beyond the limit "
+                     f"{'>=' if kind == 'min' else '<='} {format_value(name, bound, cur)}"
+                     for name, kind, bound, v in broken)
+    rest = [i for i in choice.order if i != choice.index][:RECHECK_CANDIDATES]
+    settings = replace(run.evaluator.settings, field_model="reference")
+    keeps = None
+    if rest:
+        ev = Evaluator(run.catalogs, run.scenario, settings).evaluate(run.batch.take(rest))
+        ok = [k for k in range(len(rest)) if not _broken(ev.values, choice.limits, k) and ev.feasible[k]]
+        keeps = run.ids[rest[ok[0]]] if ok else None
+    tail = (f"the next design by the same rule that keeps every limit with the 3-D model is {keeps} "
+            f"(afpm pick {shlex.quote(str(run.dir))} {keeps})" if keeps else
+            f"none of the next {len(rest)} designs by the same rule keeps every limit with the 3-D model: "
+            "loosen a limit or check a test coil")
+    return [f"Design {choice.design_id} breaks a limit you gave when re-checked: {said}; {tail}."]
 
 
 # --- rendering ------------------------------------------------------------------------------------
@@ -478,12 +610,12 @@ def sheet_markdown(sheet: Sheet, svg_files: dict | None = None) -> str:
     return "\n".join(out)
 
 
-def write_build_sheet(run, design_id) -> tuple[Path, Path, Sheet]:
+def write_build_sheet(run, design_id, choice: Choice | None = None) -> tuple[Path, Path, Sheet]:
     """Write build-<ID>.html, build-<ID>.md, its drawings (build-<ID>-*.svg) and its design file
     (build-<ID>.toml) into the run folder."""
     if isinstance(run, (str, Path)):
-        run = open_run(run)
-    sheet = build_sheet(run, design_id)
+        run = load_front(run)
+    sheet = build_sheet(run, design_id, choice)
     with RunLock(run.dir):
         svg_files = {}
         for sec in sheet.sections:

@@ -223,7 +223,7 @@ def performance_svg(rows: list[dict], sailing_rpm: float, cut_in_rpm: float | No
     panels = [("charge_current_A", "Charge current [A]", 1.0),
               ("drag_torque_Nm", "Drag torque [N m]", 1.0),
               ("efficiency", "Efficiency [%]", 100.0),
-              ("coil_temperature_C", "Coil temperature [C]", 1.0)]
+              ("coil_temperature_C", "Coil temperature [\N{DEGREE SIGN}C]", 1.0)]
     W, H = 170.0, 120.0
     pw, ph = 70.0, 38.0
     ox = (12.0, 97.0)
@@ -236,8 +236,12 @@ def performance_svg(rows: list[dict], sailing_rpm: float, cut_in_rpm: float | No
            "<title>Performance against shaft speed</title>"]
     for j, (key, label, factor) in enumerate(panels):
         x0, y0 = ox[j % 2], oy[j // 2]
+        # A coil temperature with no steady state (runaway) is not a number to plot: leave it out
+        # of the curve and say "runaway" from the first speed where it happens.
+        runaway = [bool(r.get("thermal_runaway")) and key == "coil_temperature_C" for r in rows]
         ys = [r[key] * factor for r in rows]
-        yt = nice_ticks(min(0.0, min(ys, default=0.0)), max(ys, default=1.0))
+        kept = [y for y, bad in zip(ys, runaway) if not bad]
+        yt = nice_ticks(min(0.0, min(kept, default=0.0)), max(kept, default=1.0))
         y_lo, y_hi = yt[0], yt[-1]
 
         def px(x):
@@ -260,10 +264,14 @@ def performance_svg(rows: list[dict], sailing_rpm: float, cut_in_rpm: float | No
             if mark is not None and x_lo <= mark <= x_hi:
                 out.append(f'<line x1="{_f(px(mark))}" x2="{_f(px(mark))}" y1="{_f(y0)}" y2="{_f(y0 + ph)}" '
                            f'stroke="{PALETTE["rust"]}" stroke-width="0.3" stroke-dasharray="{dash}"/>')
-        pts = " ".join(f"{_f(px(x))},{_f(py(y))}" for x, y in zip(rpm, ys))
+        pts = " ".join(f"{_f(px(x))},{_f(py(y))}" for x, y, bad in zip(rpm, ys, runaway) if not bad)
         out.append(f'<polyline points="{pts}" fill="none" stroke="{PALETTE["navy"]}" stroke-width="0.5"/>')
         out.extend(f'<circle cx="{_f(px(x))}" cy="{_f(py(y))}" r="0.6" fill="{PALETTE["teal"]}"/>'
-                   for x, y in zip(rpm, ys))
+                   for x, y, bad in zip(rpm, ys, runaway) if not bad)
+        if any(runaway):
+            first = rpm[runaway.index(True)]
+            out.append(f'<text x="{_f(px(first))}" y="{_f(y0 + 4)}" font-size="2.8" fill="{PALETTE["rust"]}" '
+                       f'class="runaway">runaway from {first:.0f} rpm</text>')
         out.append(f'<text x="{_f(x0)}" y="{_f(y0 - 2)}" font-size="3" font-weight="bold" '
                    f'fill="{PALETTE["navy"]}">{escape(label)}</text>')
         out.append(f'<text x="{_f(x0 + pw)}" y="{_f(y0 + ph + 7)}" font-size="2.6" text-anchor="end" '

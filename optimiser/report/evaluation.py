@@ -8,7 +8,9 @@ from __future__ import annotations
 import numpy as np
 
 from ..design import CONNECTIONS, DesignBatch
-from ..evaluate import ELV_LIMIT_AC_RMS_V, Evaluator
+from ..evaluate import CONSTRAINTS, ELV_LIMIT_AC_RMS_V, Evaluator
+
+DEG_C = "\N{DEGREE SIGN}C"
 
 OPERATING_KEYS = ("rpm", "open_circuit_line_rms_V", "open_circuit_line_peak_V", "charge_current_A",
                   "battery_power_W", "copper_loss_W", "eddy_loss_W", "diode_loss_W",
@@ -108,10 +110,16 @@ def design_report(evaluator: Evaluator, design: DesignBatch, rows=()) -> dict:
             f"({peak:.0f} V peak), above the {ELV_LIMIT_AC_RMS_V:.0f} V rms extra-low-voltage limit "
             "(IEC 61140 / IEC 60449 band I): disconnect or brake the generator before motoring, "
             "and insulate and enclose it as for hazardous voltage")
-    if motor["thermal_runaway"][0] or motor["coil_temperature_C"][0] > motor["coil_limit_C"][0]:
+    limit = _f(motor["coil_limit_C"][0])
+    if motor["thermal_runaway"][0]:
+        warnings.append(
+            f"left connected while motoring at {sc.max_rpm:.0f} rpm the coils would run away "
+            f"thermally (no steady temperature below the wire's limit of {limit:.0f} {DEG_C}) "
+            f"charging {_f(motor['charge_current_A'][0]):.1f} A: disconnect it before motoring")
+    elif motor["coil_temperature_C"][0] > limit:
         warnings.append(
             f"left connected while motoring at {sc.max_rpm:.0f} rpm the coils would reach "
-            f"{_f(motor['coil_temperature_C'][0]):.0f} C (limit {_f(motor['coil_limit_C'][0]):.0f} C) "
+            f"{_f(motor['coil_temperature_C'][0]):.0f} {DEG_C} (limit {limit:.0f} {DEG_C}) "
             f"charging {_f(motor['charge_current_A'][0]):.1f} A: disconnect it before motoring")
     if sail["thermal_runaway"][0]:
         warnings.append("thermal runaway at the sailing rpm: the coils find no steady temperature")
@@ -157,7 +165,7 @@ def design_report(evaluator: Evaluator, design: DesignBatch, rows=()) -> dict:
         "model": {"field_model": evaluator.settings.field_model,
                   "inductance": evaluator.settings.inductance},
         "feasible": bool(sail.feasible[0]),
-        "problems": sail.problems(0),
+        "problems": problems_with_numbers(sail, sc),
         "warnings": warnings,
     }
     warnings[-1:-1] = connected_range_warnings(report, rows)  # before the rotor-force note
@@ -166,6 +174,37 @@ def design_report(evaluator: Evaluator, design: DesignBatch, rows=()) -> dict:
         report["amp_hours_per_day"] = v("amp_hours_per_day")
         report["mean_added_drag_N"] = v("mean_added_drag_N")
     return report
+
+
+def problems_with_numbers(ev, scenario, i=0):
+    """`Evaluation.problems` of design i, each with the numbers behind it (value and limit)."""
+    v = {k: _f(np.asarray(x)[i]) for k, x in ev.values.items() if np.ndim(x) == 1}
+    g = dict(zip(CONSTRAINTS, ev.constraints[i]))
+    mm = lambda x: f"{1e3 * x:.1f} mm"  # noqa: E731
+    numbers = {
+        "magnets_overlap": lambda: f"by {mm(g['magnets_overlap'] * v['magnet_width_m'])} at the inner edge",
+        "coils_do_not_fit": lambda: f"legs {mm(v['coil_leg_width_m'])}, minimum "
+                                    f"{mm(scenario.min_coil_leg_m)}",
+        "ring_beyond_disc": lambda: f"by {mm(g['ring_beyond_disc'] * v['magnet_length_m'])}",
+        "disc_beyond_envelope": lambda: f"by {mm(g['disc_beyond_envelope'] * scenario.max_rotor_diameter_m / 2)} "
+                                        f"in radius",
+        "axial_beyond_envelope": lambda: f"{mm(v['axial_length_m'])}, allowed {mm(scenario.max_axial_length_m)}",
+        "coil_too_hot": lambda: ("runaway: no steady temperature" if v["thermal_runaway"] else
+                                 f"{v['coil_temperature_C']:.0f} {DEG_C}") + f", limit {v['coil_limit_C']:.0f} {DEG_C}",
+        "magnet_too_hot": lambda: f"{v['magnet_temperature_C']:.0f} {DEG_C}, limit "
+                                  f"{v['magnet_temperature_C'] - 100 * g['magnet_too_hot']:.0f} {DEG_C}",
+        "back_iron_saturated": lambda: f"{v['back_iron_flux_density_T']:.2f} T, limit "
+                                       f"{scenario.back_iron_saturation_T:.2f} T",
+        "cut_in_above_sailing": lambda: f"cut-in {v['cut_in_rpm']:.0f} rpm",
+    }
+    out = []
+    for reason, name in zip(ev.problems(i), [n for n in CONSTRAINTS if g[n] > 0]):
+        try:
+            extra = numbers[name]() if name in numbers else ""
+        except (KeyError, AttributeError):
+            extra = ""
+        out.append(f"{reason} ({extra})" if extra else reason)
+    return out
 
 
 def profile_rows(scenario, profile, i=0):
@@ -177,6 +216,8 @@ def profile_rows(scenario, profile, i=0):
                     "drag_force_N", "added_drag_N", "coil_temperature_C"):
             row[key] = float(profile[key][i, j])
         row["stalled"] = bool(profile["stalled"][i, j])
+        if "thermal_runaway" in profile:
+            row["thermal_runaway"] = bool(profile["thermal_runaway"][i, j])
         rows.append(row)
     return rows
 
