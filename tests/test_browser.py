@@ -42,6 +42,7 @@ def browser():
     profile = tempfile.mkdtemp(prefix="afpm-chromium-")
     options = webdriver.ChromeOptions()
     options.binary_location = CHROMIUM
+    options.set_capability("goog:loggingPrefs", {"browser": "ALL"})
     # Network off: every host name fails to resolve and any proxy use goes to a closed port.
     for flag in ("--headless", "--no-sandbox", "--disable-gpu", "--no-first-run",
                  "--disable-background-networking", "--disable-component-update", "--disable-sync",
@@ -56,6 +57,7 @@ def browser():
 
 
 def _open(driver, path):
+    driver.get_log("browser")  # forget what earlier pages logged
     driver.get(Path(path).resolve().as_uri())
     deadline = time.monotonic() + 30
     while not driver.execute_script("return window.afpmReady === true"):
@@ -75,8 +77,8 @@ def test_clicking_a_point_shows_its_panel_offline(browser, tmp_path):
     run = _small_run(tmp_path / "run")
     ids, _ = run.front_designs()
     _open(browser, write_front_page(run))
-    points = browser.find_elements(By.CSS_SELECTOR, "#scatter .scatterlayer .point")
-    assert len(points) == len(ids)
+    points = browser.find_elements(By.CSS_SELECTOR, "#scatter .scatterlayer .trace:first-child .point")
+    assert len(points) == len(ids)  # a small front: every design drawn
     # A real mouse click on a marker; plotly resolves it to the nearest point.
     ActionChains(browser).move_to_element(points[-1]).click().perform()
     deadline = time.monotonic() + 10
@@ -91,8 +93,7 @@ def test_clicking_a_point_shows_its_panel_offline(browser, tmp_path):
     assert command == f"afpm pick {run.dir} {shown}"
 
     # Brushing an axis of the parallel coordinates filters the scatter.
-    charge = browser.execute_script("return document.getElementById('afpm-data') && "
-                                    "JSON.parse(document.getElementById('afpm-data').textContent).objectives.charge")
+    charge = browser.execute_script("return window.afpmData.objectives[0].values")
     lo, hi = sorted(charge)[len(charge) // 2], max(charge)
     browser.execute_script("Plotly.restyle(document.getElementById('parcoords'), "
                            "{'dimensions[0].constraintrange': [[arguments[0], arguments[1]]]});", lo, hi)
@@ -113,3 +114,72 @@ def test_markup_in_catalog_ids_shows_as_text(browser, tmp_path):
     browser.execute_script("Plotly.Fx.hover('scatter', [{curveNumber: 0, pointNumber: 0}]);")
     hover = browser.execute_script("var e = document.querySelector('.hoverlayer'); return e && e.textContent")
     assert PAYLOAD in hover
+
+
+def _errors(driver):
+    """Console errors (SEVERE) the page logged; WebGL fallback notices are warnings, not errors."""
+    return [e for e in driver.get_log("browser") if e["level"] == "SEVERE"]
+
+
+def test_subset_show_design_box_and_neighbours(browser, tmp_path):
+    """--show 8 draws 8 designs; the box finds a design whatever its case, clears an old error,
+    highlights it; the neighbours button draws the designs it stands for; no console errors."""
+    run = _small_run(tmp_path / "run")
+    ids, _ = run.front_designs()
+    assert len(ids) > 8
+    _open(browser, write_front_page(run, show=8))
+    drawn = browser.execute_script("return window.afpmData.ids")
+    assert len(drawn) == 8
+    assert browser.execute_script(
+        "return document.querySelectorAll('#scatter .scatterlayer .trace:first-child .point').length") == 8
+    assert browser.execute_script("return document.getElementById('count').textContent") == \
+        f"8 of {len(ids)} front designs drawn"
+    box = "var b = document.getElementById('goto'); b.value = arguments[0]; " \
+          "b.dispatchEvent(new Event('change')); return document.getElementById('count').textContent"
+    assert browser.execute_script(box, "D999999") == "no design D999999 on this front"
+    hidden = next(i for i in ids if i not in drawn)
+    assert browser.execute_script(box, hidden.lower()) == f"8 of {len(ids)} front designs drawn"  # error gone
+    assert browser.execute_script("return window.afpmShown") == hidden
+    assert browser.execute_script("return window.afpmHighlighted") == hidden
+    assert browser.execute_script("return document.getElementById('scatter').data[2].x.length") == 1
+    assert f"Design {hidden}" in _panel_text(browser) and "Not drawn" in _panel_text(browser)
+    browser.execute_script(box, drawn[0][1:])  # digits alone name a design too
+    assert browser.execute_script("return window.afpmShown") == drawn[0]
+    counts = browser.execute_script("return window.afpmData.counts")
+    browser.execute_script("document.getElementById('neighbours').click()")
+    assert browser.execute_script("return window.afpmNeighbours") == counts[0]
+    assert browser.execute_script("return document.getElementById('scatter').data[1].x.length") == counts[0]
+    assert sum(counts) == len(ids)
+    assert _errors(browser) == []
+
+
+def test_profile_objectives_on_the_axes(browser, tmp_path):
+    """With a propeller and the profile objectives, the scatter plots charge per day against mean
+    added drag, and the panel shows the boat-speed table."""
+    from optimiser.search.run import Budget, SearchRun, create_run, run_search
+
+    from test_front_page import CATALOGS
+
+    scenario = tmp_path / "boat.toml"
+    scenario.write_text('propeller_diameter_mm = 406\n'
+                        'objectives = ["amp_hours_per_day", "mean_added_drag_N", "magnet_cost", '
+                        '"coil_temperature_C"]\n')
+    run = SearchRun(create_run(tmp_path / "run", scenario, CATALOGS, seed=3, population=30,
+                               budget=Budget(evaluations=300)))
+    assert run_search(run) == "finished"
+    assert len(run.front_designs()[0]) > 3
+    _open(browser, write_front_page(run))
+    layout = browser.execute_script("var s = document.getElementById('scatter').layout; "
+                                    "return [s.xaxis.title.text, s.yaxis.title.text, s.title.text]")
+    assert layout[0] == "mean added drag [N]" and layout[1] == "charge per day [A h/day]"
+    assert "marker size: magnet bill" in layout[2]
+    colour = browser.execute_script("return document.getElementById('scatter').data[0].marker.colorbar.title.text")
+    assert colour == "coil temperature [\N{DEGREE SIGN}C]"
+    labels = browser.execute_script("return document.getElementById('parcoords').data[0].dimensions"
+                                    ".map(function(d){ return d.label; })")
+    assert labels[:4] == ["charge per day [A h/day]", "mean added drag [N]", "magnet bill [EUR]",
+                          "coil temperature [\N{DEGREE SIGN}C]"]
+    browser.execute_script("window.afpmShow(window.afpmData.ids[0])")
+    text = _panel_text(browser)
+    assert "Over the sailing profile" in text and "boat speed [kn]" in text and "loaded [rpm]" in text
+    assert _errors(browser) == []

@@ -276,6 +276,7 @@ Promise.all([inflate("afpm-plotly"), inflate("afpm-data")]).then(function(parts)
 }).catch(function(err){ note.textContent = "could not open the page: " + err; window.afpmError = String(err); });
 
 function start(D){
+window.afpmData = D;
 var P = D.palette, O = D.objectives, A = D.all, n = D.ids.length, N = A.ids.length;
 var byId = {}; A.ids.forEach(function(id, j){ byId[id] = j; });
 var drawnAt = {}; D.ids.forEach(function(id, k){ drawnAt[byId[id]] = k; });
@@ -379,9 +380,9 @@ Plotly.newPlot(scatter, [{
 }, {displaylogo: false, responsive: true});
 scatter.on("plotly_click", function(ev){
   if (!ev.points || !ev.points.length) return;
-  var pt = ev.points[0];
-  if (pt.curveNumber === 0) show(pt.pointIndex);
-  else if (pt.curveNumber === 1) showOther(pt.customdata);
+  var pt = ev.points[0], curve = pt.curveNumber || 0;
+  if (curve === 0) show(pt.pointIndex);
+  else if (curve === 1) showOther(pt.customdata);
 });
 var par = document.getElementById("parcoords");
 function dimensions(){ return D.dims.map(function(d){ return {label: d.label, values: d.values}; }); }
