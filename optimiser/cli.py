@@ -23,6 +23,7 @@ from .design import load_design
 from .errors import InputError, Problem
 from .evaluate import Evaluator, Settings
 from .report.evaluation import design_report, finite_or_none, rpm_table
+from .report.front_data import plural
 from .scenario import FIELDS, load_scenario, write_template
 from .search import parallel as _parallel
 from .search.run import Budget, SearchRun, StopFlag, create_run, new_run_dir, run_search
@@ -175,12 +176,12 @@ def _shown(obj):
     return _Shown(obj) if isinstance(obj, float) else obj
 
 
-def _print_report(report, rows):
+def _print_report(report, rows, currency=""):
     console = Console()
     d = report["design"]
     console.print(f"[bold]Design[/bold] {d['magnet']} magnets, layout {d['layout']} x{d['multiple']}, "
                   f"ring {d['ring_radius_mm']:g} mm, disc {d['disc']}, wire {d['wire']} x{d['strands']}, "
-                  f"{d['turns']} turns, {d['parallel_paths']} path(s), {d['connection']}")
+                  f"{d['turns']} turns, {d['parallel_paths']} {plural(d['parallel_paths'], 'path')}, {d['connection']}")
     g, e, wnd = report["geometry"], report["electrical"], report["winding"]
     table = Table(title="Build and electrical", show_header=False)
     table.add_column("quantity")
@@ -194,39 +195,39 @@ def _print_report(report, rows):
         ("coil thickness", f"{g['coil_thickness_m']*1e3:.2f} mm"),
         ("stator thickness / magnet face gap", f"{g['stator_thickness_m']*1e3:.2f} / {g['face_gap_m']*1e3:.2f} mm"),
         ("mean turn length", f"{g['mean_turn_length_m']*1e3:.0f} mm"),
-        ("magnet Br (at temperature)", f"{report['magnet']['remanence_T']:.3f} T at {report['magnet']['temperature_C']:.0f} C"),
-        ("phase resistance 20 C / hot", f"{e['phase_resistance_20C_ohm']:.4f} / {e['phase_resistance_hot_ohm']:.4f} ohm"),
+        ("magnet Br (at temperature)", f"{report['magnet']['remanence_T']:.3f} T at {report['magnet']['temperature_C']:.0f} \N{DEGREE SIGN}C"),
+        ("phase resistance 20 \N{DEGREE SIGN}C / hot", f"{e['phase_resistance_20C_ohm']:.4f} / {e['phase_resistance_hot_ohm']:.4f} ohm"),
         ("phase inductance", f"{e['phase_inductance_H']*1e3:.3f} mH"),
         ("line EMF per rpm", f"{e['emf_line_rms_per_rpm_V']*1e3:.2f} mV rms"),
         ("back-iron flux density", f"{e['back_iron_flux_density_T']:.2f} T"),
         ("rotor attraction", f"{e['axial_attraction_N']:.0f} N"),
         ("cut-in", f"{report['cut_in_rpm']:.0f} rpm"),
         ("copper", f"{report['materials']['copper_mass_kg']:.2f} kg, {report['materials']['wire_length_m']:.0f} m"),
-        ("magnet bill", f"{report['materials']['magnet_cost']:.2f}"),
+        ("magnet bill", f"{report['materials']['magnet_cost']:.2f} {currency}"),
     ]:
         table.add_row(label, value)
     console.print(table)
     speeds = Table(title="Against shaft speed")
-    for col in ("rpm", "charge A", "battery W", "torque N m", "efficiency", "coil C", "line V rms (open)"):
+    for col in ("rpm", "charge A", "battery W", "torque N m", "efficiency %", "coil \N{DEGREE SIGN}C", "line V rms (open)"):
         speeds.add_column(col, justify="right")
     for r in rows:
         speeds.add_row(f"{r['rpm']:.0f}", f"{r['charge_current_A']:.2f}", f"{r['battery_power_W']:.1f}",
-                       f"{r['drag_torque_Nm']:.3f}", f"{r['efficiency']:.2f}",
+                       f"{r['drag_torque_Nm']:.3f}", f"{100 * r['efficiency']:.0f}",
                        "runaway" if r["thermal_runaway"] else f"{r['coil_temperature_C']:.0f}",
                        f"{r['open_circuit_line_rms_V']:.1f}")
     console.print(speeds)
     if "sailing_profile" in report:
         boat = Table(title=f"Over the sailing profile: {report['amp_hours_per_day']:.1f} Ah per day, "
                            f"mean added drag {report['mean_added_drag_N']:.0f} N")
-        for col in ("knots", "hours/day", "rpm (loaded)", "rpm (free)", "charge A", "torque N m",
-                    "drag on boat N", "added drag N", "coil C"):
+        # Short headers: nine columns fit an 80-column terminal.
+        for col in ("kn", "h/day", "rpm", "free rpm", "A", "N m", "drag N", "added N", "coil \N{DEGREE SIGN}C"):
             boat.add_column(col, justify="right")
         for r in report["sailing_profile"]:
             boat.add_row(f"{r['boat_speed_kn']:g}", f"{r['hours_per_day']:g}",
                          "stalled" if r["stalled"] else f"{r['rpm']:.0f}", f"{r['free_wheel_rpm']:.0f}",
                          f"{r['charge_current_A']:.2f}", f"{r['drag_torque_Nm']:.2f}",
                          f"{r['drag_force_N']:.0f}", f"{r['added_drag_N']:.0f}",
-                         f"{r['coil_temperature_C']:.0f}")
+                         "runaway" if r.get("thermal_runaway") else f"{r['coil_temperature_C']:.0f}")
         console.print(boat)
     status = "[green]fits and meets every limit[/green]" if report["feasible"] else "[red]does not work:[/red]"
     console.print(status)
@@ -236,32 +237,106 @@ def _print_report(report, rows):
         console.print(f"[yellow]warning:[/yellow] {w}")
 
 
+def _provenance(sc, cat, settings, run=None):
+    """Where every input of an evaluation came from: boat, battery, catalogs, field model."""
+    hashes = run.meta.get("catalog_hashes", {}) if run is not None else {}
+    files = ", ".join(f"{p.name}" + (f" {hashes[p.name][:12]}" if p.name in hashes else "")
+                      for p in cat.files.values())
+    folder = Path(next(iter(cat.files.values()))).parent if cat.files else "?"
+    return {
+        "run": str(run.dir) if run is not None else None,
+        "boat": sc.name, "scenario": str(sc.source),
+        "battery": f"{sc.battery_nominal_V:g} V nominal, charging at {sc.battery_charging_V:g} V",
+        "catalogs": str(folder), "catalog_files": files,
+        "field_model": settings.field_model, "inductance": settings.inductance,
+    }
+
+
+FIELD_MODELS = {"fast": "fast (quasi-3-D Fourier field)",
+                "reference": "reference (3-D magnet cuboids and their images in the discs)"}
+
+
+def _origin_note(design_path):
+    """A design file written by afpm pick names its run: the line that says how to use it."""
+    try:
+        head = Path(design_path).read_text(encoding="utf-8-sig")[:2000]
+    except (OSError, UnicodeDecodeError):
+        return None
+    for line in head.splitlines():
+        if line.startswith("# re-evaluate with: afpm evaluate --run "):
+            return line[2:]
+    return None
+
+
 @app.command("evaluate")
 @input_command
 def evaluate_command(
-    design: Path = typer.Option(..., "--design", help="Design file (TOML) with magnet, layout, "
-                                "multiple, ring_radius_mm, disc, wire, strands, turns, parallel_paths, connection."),
+    design: Path = typer.Option(None, "--design", help="Design file (TOML) with magnet, layout, "
+                                "multiple, ring_radius_mm, disc, wire, strands, turns, parallel_paths, "
+                                "connection. Or give --run and --id."),
     scenario: Path = typer.Option(None, "--scenario", help="Scenario file; omit for the demo boat."),
     catalogs: Path = typer.Option(Path("catalogs"), "--catalogs", help="Folder of the catalog CSVs."),
+    run: Path = typer.Option(None, "--run", help="Run folder: use that run's scenario and catalog "
+                             "snapshot (not --scenario / --catalogs), for --id or --design."),
+    design_id: str = typer.Option(None, "--id", metavar="ID", help="A design of the run's front "
+                                  "(with --run), e.g. D123."),
     as_json: bool = typer.Option(False, "--json", help="Print one JSON object (SI units) for programs."),
     reference: bool = typer.Option(False, "--reference", help="Use the 3-D reference field model and the finite-volume thermal reference."),
     inductance: bool = typer.Option(False, "--inductance", help="Include the phase inductance in the "
                                     "rectifier (commutation overlap; slower, time-domain)."),
 ):
-    """Evaluate one design: geometry, winding, EMF, charge current, drag torque, temperatures."""
-    sc, cat = _load_inputs(scenario, catalogs)
-    evaluator = Evaluator(cat, sc, Settings(field_model="reference" if reference else "fast",
-                                            thermal_model="reference" if reference else "fast",
-                                            inductance=inductance))
-    batch = load_design(design, cat, evaluator.windings.problem)
+    """Evaluate one design: geometry, winding, EMF, charge current, drag torque, temperatures.
+    The first lines say which boat, battery, catalogs and field model were used. Exit code 1 when
+    the design does not fit or breaks a limit (the reasons, with their numbers, are listed); with
+    --json the exit code is 0 and "feasible" says it."""
+    settings = Settings(field_model="reference" if reference else "fast",
+                        thermal_model="reference" if reference else "fast", inductance=inductance)
+    front = None
+    if run is not None:
+        from .report.front_data import load_front
+
+        if scenario is not None or catalogs != Path("catalogs"):
+            raise typer.BadParameter("--run uses the run's own scenario and catalogs: give no "
+                                     "--scenario or --catalogs with it")
+        front = load_front(run)
+        sc, cat = front.scenario, front.catalogs
+    else:
+        if design_id is not None:
+            raise typer.BadParameter("--id names a design of a run's front: give --run RUN too")
+        sc, cat = _load_inputs(scenario, catalogs)
+    if (design is None) == (design_id is None):
+        raise typer.BadParameter("give --design FILE, or --run RUN --id ID")
+    evaluator = Evaluator(cat, sc, settings)
+    if design_id is not None:
+        wanted = design_id.strip().upper()
+        wanted = "D" + wanted if wanted.isdigit() else wanted
+        if wanted not in front.ids:
+            raise InputError([Problem(str(run / "front.csv"), None, "id", f"no design {design_id!r} on "
+                                      f"this run's front (its ids run {', '.join(front.ids[:5])} ...)")])
+        batch = front.batch.take([front.ids.index(wanted)])
+    else:
+        batch = load_design(design, cat, evaluator.windings.problem)
     with np.errstate(all="ignore"):  # a design that cannot be built has NaN values: shown as such
         rows = rpm_table(evaluator, batch)
         report = design_report(evaluator, batch, rows)
     report["rpm_table"] = rows
+    report["provenance"] = _provenance(sc, cat, settings, front)
     if as_json:
         typer.echo(json.dumps(finite_or_none(report), indent=2, allow_nan=False))
     else:
-        _print_report(_shown(report), _shown(rows))
+        p = report["provenance"]
+        typer.echo(f"Boat: {p['boat']} ({p['scenario']}); battery {p['battery']}; sailing at "
+                   f"{sc.sailing_rpm:g} rpm" + (f"; run {p['run']}" if p["run"] else ""))
+        typer.echo(f"Catalogs: {p['catalogs']} ({p['catalog_files']})")
+        typer.echo(f"Field model: {FIELD_MODELS[p['field_model']]}; rectifier "
+                   + ("with the phase inductance (commutation)" if inductance else "resistive"))
+        note = _origin_note(design) if design is not None and run is None else None
+        if note and scenario is None:
+            typer.echo(f"note: this design file was picked from a run; for that run's boat and "
+                       f"catalogs: {note}")
+        _print_report(_shown(report), _shown(rows), sc.currency)
+    if not report["feasible"] and not as_json:
+        raise typer.Exit(1)
 
 
 # --- afpm search --------------------------------------------------------------------------------

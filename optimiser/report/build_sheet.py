@@ -485,7 +485,7 @@ def _recheck_limits(run, ref, choice):
                      f"{'>=' if kind == 'min' else '<='} {format_value(name, bound, cur)}"
                      for name, kind, bound, v in broken)
     rest = [i for i in choice.order if i != choice.index][:RECHECK_CANDIDATES]
-    settings = replace(run.evaluator.settings, field_model="reference")
+    settings = replace(run.evaluator.settings, field_model="reference", thermal_model="reference")
     keeps = None
     if rest:
         ev = Evaluator(run.catalogs, run.scenario, settings).evaluate(run.batch.take(rest))

@@ -114,7 +114,7 @@ def design_report(evaluator: Evaluator, design: DesignBatch, rows=()) -> dict:
     if motor["thermal_runaway"][0]:
         warnings.append(
             f"left connected while motoring at {sc.max_rpm:.0f} rpm the coils would run away "
-            f"thermally (no steady temperature below the wire's limit of {limit:.0f} {DEG_C}) "
+            f"thermally (no steady temperature at all; the wire's limit is {limit:.0f} {DEG_C}) "
             f"charging {_f(motor['charge_current_A'][0]):.1f} A: disconnect it before motoring")
     elif motor["coil_temperature_C"][0] > limit:
         warnings.append(
