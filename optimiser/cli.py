@@ -9,6 +9,9 @@ from __future__ import annotations
 import functools
 import json
 import math
+import signal
+import sys
+import time
 from pathlib import Path
 
 import numpy as np
@@ -18,6 +21,7 @@ from rich.markup import escape as rich_escape
 from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn, TimeRemainingColumn
 from rich.table import Table
 
+from . import __version__
 from .catalogs import catalog_summary, load_catalogs
 from .design import load_design
 from .errors import InputError, Problem
@@ -37,11 +41,27 @@ app = typer.Typer(
          "shaft from catalog parts. Safety: guard rotating shafts, handle magnets with care, "
          "charge through a regulator with over-current protection, and defer to local codes, "
          "marine electrical standards and a qualified marine electrician.",
-    no_args_is_help=True, add_completion=False)
+    no_args_is_help=True, add_completion=False, rich_markup_mode=None)
+# rich_markup_mode=None: plain click help, which shows a flag as "--json" (the rich help printed
+# "<bool>" beside every plain flag, as if it took a value).
 catalogs_app = typer.Typer(help="Check the part catalogs (magnets, wires, layouts, discs).",
-                           no_args_is_help=True)
+                           no_args_is_help=True, rich_markup_mode=None)
 scenario_app = typer.Typer(help="Write or check a scenario file (boat, space, practice).",
-                           no_args_is_help=True)
+                           no_args_is_help=True, rich_markup_mode=None)
+
+
+def _version(value: bool):
+    if value:
+        typer.echo(f"afpm {__version__}")
+        raise typer.Exit()
+
+
+@app.callback()
+def _main(version: bool = typer.Option(False, "--version", callback=_version, is_eager=True,
+                                       help="Print afpm's version and exit.")):
+    pass
+
+
 app.add_typer(catalogs_app, name="catalogs")
 app.add_typer(scenario_app, name="scenario")
 
@@ -371,9 +391,19 @@ def _budget(hours, minutes, evaluations):
 def search_command(
     scenario: Path = typer.Option(None, "--scenario", help="Scenario file; omit for the demo boat."),
     catalogs: Path = typer.Option(Path("catalogs"), "--catalogs", help="Folder of the catalog CSVs."),
-    hours: float = typer.Option(None, "--hours", min=0.0, help="Running-time budget in hours."),
-    minutes: float = typer.Option(None, "--minutes", min=0.0, help="Running-time budget in minutes."),
-    evaluations: int = typer.Option(None, "--evaluations", min=1, help="Budget of distinct designs evaluated."),
+    hours: float = typer.Option(None, "--hours", min=0.0, help="Running-time budget in hours; on "
+                                "resume the run's total, time already spent included (see --more-minutes)."),
+    minutes: float = typer.Option(None, "--minutes", min=0.0, help="Running-time budget in minutes; on "
+                                  "resume the run's total, time already spent included (see --more-minutes)."),
+    evaluations: int = typer.Option(None, "--evaluations", min=1, help="Budget of distinct designs "
+                                    "evaluated; on resume the run's total (see --more-evaluations)."),
+    more_minutes: float = typer.Option(None, "--more-minutes", min=0.0, help="On resume: add this much "
+                                       "running time to the run's stored budget [minutes]."),
+    more_evaluations: int = typer.Option(None, "--more-evaluations", min=1, help="On resume: add this "
+                                         "many designs to the run's stored budget."),
+    progress_every: float = typer.Option(60.0, "--progress-every", min=1.0, help="Seconds between "
+                                         "plain progress lines when the output is not a terminal "
+                                         "(nohup, a log file)."),
     population: int = typer.Option(100, "--population", min=4, help="Designs per generation."),
     seed: int = typer.Option(1, "--seed", help="Random seed: the same seed and budget give the same front."),
     run: Path = typer.Option(None, "--run", help="Run folder: resumes it if it holds a run, else starts one there."),
@@ -391,8 +421,12 @@ def search_command(
 ):
     """Search the catalog choices overnight (NSGA-II style GA) for the Pareto front of the
     scenario's objectives (default: charge current, drag torque, magnet bill, coil temperature).
-    Ctrl-C saves; --run DIR resumes."""
+    Ctrl-C saves and exits 130; --run DIR resumes."""
     budget = _budget(hours, minutes, evaluations)
+    more = more_minutes is not None or more_evaluations is not None
+    if more and budget is not None:
+        raise typer.BadParameter("give a total (--hours, --minutes, --evaluations) or an addition "
+                                 "(--more-minutes, --more-evaluations), not both")
     if fidelity not in (None, "fast", "reference"):
         raise typer.BadParameter(f"--fidelity is fast or reference (got {fidelity!r})")
     if scheduler and workers is not None:
@@ -409,6 +443,8 @@ def search_command(
                                           f"{kept}; it cannot change (start a new run)")])
         if budget is not None:
             search.set_budget(budget)
+        if more:
+            search.set_budget(_extended(search, more_minutes, more_evaluations))
         changed = search.changed_catalogs()
         if changed:
             typer.echo(f"note: {', '.join(changed)} changed since this run started; the run keeps "
@@ -416,6 +452,9 @@ def search_command(
         typer.echo(f"resuming {run} at generation {len(search.state.history)}, "
                    f"{search.evaluations} designs evaluated; budget {search.budget.describe()}")
     else:
+        if more:
+            raise typer.BadParameter("--more-minutes and --more-evaluations extend a run being "
+                                     "resumed (--run DIR): for a new run give --minutes or --evaluations")
         if run is not None and (run.is_symlink() or (run.exists() and not run.is_dir())):
             raise InputError([Problem(str(run), None, None, "is a file (or a link), not a folder: "
                                       "give a new or empty folder for the run")])
@@ -425,7 +464,8 @@ def search_command(
         search = SearchRun(run_dir)
         typer.echo(f"new run {run_dir}; budget {search.budget.describe()}; Ctrl-C saves and stops")
     if search.done():
-        typer.echo("the run's budget is spent; give a larger --evaluations, --minutes or --hours to continue")
+        typer.echo(f"the run's budget ({search.budget.describe()}) is spent; to continue, add to it: "
+                   f"afpm search --run {search.dir} --more-minutes M (or --more-evaluations N)")
         search.save("finished", force=True)
         return
     mapper = _search_mapper(search, workers, scheduler)
@@ -441,26 +481,82 @@ def search_command(
             parts.append(search.state.elapsed_s / b.seconds)
         return min(max(parts), 1.0)
 
-    columns = [TextColumn("{task.fields[model]} gen {task.fields[gen]}"), BarColumn(),
-               TextColumn("{task.fields[evals]} designs, {task.fields[feasible]} feasible, "
-                          "front {task.fields[front]}, HV {task.fields[hv]}"),
-               TimeElapsedColumn(), TextColumn("left"), TimeRemainingColumn()]
-    with Progress(*columns, transient=False) as progress, StopFlag() as stop:
-        task = progress.add_task("search", total=1000, gen=0, model=search.model, evals=search.evaluations, feasible=0,
-                                 front=len(search.state.archive), hv="-", completed=fraction() * 1000)
-
-        def update(row):
-            progress.update(task, completed=fraction() * 1000, gen=row["generation"], evals=row["evaluations"],
-                            feasible=row["feasible"], front=row["front_size"], hv=f"{row['hypervolume']:.4f}")
-
+    with StopFlag() as stop:
         try:
-            status = run_search(search, on_generation=update, stop=stop)
+            if sys.stdout.isatty():
+                status = _search_with_bar(search, fraction, stop)
+            else:
+                status = _search_with_lines(search, fraction, stop, progress_every)
         finally:
             mapper.close()
     _write_front_page_after_search(search)
     typer.echo(f"{status}: {search.evaluations} designs evaluated, {len(search.state.archive)} on the front; "
                f"see {search.dir / 'front.csv'}"
                + ("" if status == "finished" else f"; resume with: afpm search --run {search.dir}"))
+    if status == "stopped":
+        raise typer.Exit(128 + int(stop.signum or signal.SIGINT))  # 130 after Ctrl-C, as shells report
+
+
+def _extended(search, more_minutes, more_evaluations):
+    """The run's stored budget plus what --more-minutes / --more-evaluations add (a limit the run
+    did not have starts from what it has spent)."""
+    b = search.budget
+    seconds, evaluations = b.seconds, b.evaluations
+    if more_minutes is not None:
+        seconds = (seconds if seconds else search.state.elapsed_s) + 60.0 * more_minutes
+    if more_evaluations is not None:
+        evaluations = (evaluations if evaluations else search.evaluations) + more_evaluations
+    return Budget(evaluations=evaluations, seconds=seconds)
+
+
+def _clock(seconds):
+    seconds = int(round(max(seconds, 0.0)))
+    return f"{seconds // 3600}:{seconds // 60 % 60:02d}:{seconds % 60:02d}"
+
+
+def _search_with_bar(search, fraction, stop):
+    """A terminal: one live progress bar."""
+    columns = [TextColumn("{task.fields[model]} gen {task.fields[gen]}"), BarColumn(),
+               TextColumn("{task.fields[evals]} designs, {task.fields[feasible]} feasible, "
+                          "front {task.fields[front]}, HV {task.fields[hv]}"),
+               TimeElapsedColumn(), TextColumn("left"), TimeRemainingColumn()]
+    with Progress(*columns, transient=False) as progress:
+        task = progress.add_task("search", total=1000, gen=0, model=search.model, evals=search.evaluations,
+                                 feasible=0, front=len(search.state.archive), hv="-", completed=fraction() * 1000)
+
+        def update(row):
+            progress.update(task, completed=fraction() * 1000, gen=row["generation"], evals=row["evaluations"],
+                            feasible=row["feasible"], front=row["front_size"], hv=f"{row['hypervolume']:.4f}")
+
+        return run_search(search, on_generation=update, stop=stop)
+
+
+def _search_with_lines(search, fraction, stop, every_s):
+    """Not a terminal (nohup, a log file): one plain line every `every_s` seconds and at the end,
+    flushed at once, never wrapped or cut."""
+    last = {"time": None, "row": None, "printed": None}
+
+    def line(row):
+        done = fraction()
+        elapsed = search.state.elapsed_s
+        left = _clock(elapsed * (1.0 - done) / done) if done > 0 else "?"
+        typer.echo(f"{search.model} gen {row['generation']}: {row['evaluations']} designs, "
+                   f"{row['feasible']} feasible, front {row['front_size']}, HV {row['hypervolume']:.4f}, "
+                   f"elapsed {_clock(elapsed)}, left {left} ({100 * done:.0f} % of the budget)")
+        sys.stdout.flush()
+        last["printed"] = row
+
+    def update(row):
+        now = time.monotonic()
+        last["row"] = row
+        if last["time"] is None or now - last["time"] >= every_s:
+            last["time"] = now
+            line(row)
+
+    status = run_search(search, on_generation=update, stop=stop)
+    if last["row"] is not None and last["printed"] is not last["row"]:
+        line(last["row"])
+    return status
 
 
 # --- afpm front / afpm pick (front page and build sheets) ---------------------------------------

@@ -429,6 +429,7 @@ class StopFlag:
 
     def __init__(self):
         self.stop = False
+        self.signum = None  # the signal that asked (exit status 128 + it, by shell convention)
 
     def __enter__(self):
         self._old = {s: signal.signal(s, self._handler) for s in (signal.SIGINT, signal.SIGTERM)}
@@ -437,7 +438,7 @@ class StopFlag:
     def _handler(self, signum, frame):
         if self.stop:  # a second Ctrl-C: the user really means it
             raise KeyboardInterrupt
-        self.stop = True
+        self.stop, self.signum = True, signum
 
     def __exit__(self, *exc):
         for s, h in self._old.items():
