@@ -306,9 +306,8 @@ def evaluate_command(
                                     "rectifier (commutation overlap; slower, time-domain)."),
 ):
     """Evaluate one design: geometry, winding, EMF, charge current, drag torque, temperatures.
-    The first lines say which boat, battery, catalogs and field model were used. Exit code 1 when
-    the design does not fit or breaks a limit (the reasons, with their numbers, are listed); with
-    --json the exit code is 0 and "feasible" says it."""
+    The first lines say which boat, battery, catalogs and field model were used; a design that
+    does not fit or breaks a limit lists its reasons with their numbers."""
     settings = Settings(field_model="reference" if reference else "fast",
                         thermal_model="reference" if reference else "fast", inductance=inductance)
     front = None
@@ -355,8 +354,6 @@ def evaluate_command(
             typer.echo(f"note: this design file was picked from a run; for that run's boat and "
                        f"catalogs: {note}")
         _print_report(_shown(report), _shown(rows), sc.currency)
-    if not report["feasible"] and not as_json:
-        raise typer.Exit(1)
 
 
 # --- afpm search --------------------------------------------------------------------------------

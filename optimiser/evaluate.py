@@ -317,8 +317,7 @@ class Evaluator:
                       "rpm": loaded.rpm[:, :s], "free_wheel_rpm": free.rpm[:, :s],
                       "stalled": loaded.stalled[:, :s], "charge_current_A": current,
                       "drag_torque_Nm": at["drag_torque_Nm"], "drag_force_N": drag, "added_drag_N": added,
-                      "coil_temperature_C": coil, "battery_power_W": at["battery_power_W"],
-                      "thermal_runaway": at["thermal_runaway"]}
+                      "coil_temperature_C": coil, "battery_power_W": at["battery_power_W"]}
         v = ev.values
         v["amp_hours_per_day"], v["mean_added_drag_N"] = amp_hours, mean_added
         v["coil_temperature_C"] = np.maximum(v["coil_temperature_C"], coil.max(axis=1))
