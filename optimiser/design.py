@@ -18,10 +18,16 @@ import numpy as np
 from .errors import InputError, Problem, did_you_mean
 
 DESIGN_KEYS = ("magnet", "layout", "multiple", "ring_radius_mm", "disc", "wire", "strands", "turns",
-               "parallel_paths", "connection")
+               "parallel_paths", "connection", "coil_shape")
 """Keys of a design file, exactly (a contract with users' files and scripts)."""
 
+OPTIONAL_KEYS = {"coil_shape": "rectangular"}
+"""Design-file keys that may be left out, with the value an absent key means (files written before
+the key existed keep their meaning)."""
+
 CONNECTIONS = ("star", "delta")
+COIL_SHAPES = ("rectangular", "keystone")
+"""Coil shapes by code (0, 1), as `physics.geometry.COIL_SHAPES` (checked equal in the tests)."""
 
 
 @dataclass(frozen=True)
@@ -38,11 +44,14 @@ class DesignBatch:
     turns: np.ndarray
     parallel_paths: np.ndarray
     connection: np.ndarray  # 0 star, 1 delta
+    coil_shape: np.ndarray = 0  # 0 rectangular, 1 keystone (COIL_SHAPES); absent: rectangular
 
     def __post_init__(self):
         for f in fields(self):
             dtype = float if f.name == "ring_radius_m" else np.int64
             object.__setattr__(self, f.name, np.atleast_1d(np.asarray(getattr(self, f.name), dtype=dtype)))
+        if self.coil_shape.shape != self.magnet.shape:  # the default (or a scalar): one per design
+            object.__setattr__(self, "coil_shape", np.broadcast_to(self.coil_shape, self.magnet.shape).copy())
 
     def __len__(self):
         return len(self.magnet)
@@ -52,14 +61,16 @@ class DesignBatch:
         return DesignBatch(**{f.name: getattr(self, f.name)[index] for f in fields(self)})
 
     def as_matrix(self) -> np.ndarray:
-        """(n, 10) float matrix, one column per field in declaration order: a hashable row key."""
+        """(n, 11) float matrix, one column per field in declaration order: a hashable row key."""
         return np.column_stack([getattr(self, f.name).astype(float) for f in fields(self)])
 
     @classmethod
     def from_matrix(cls, matrix) -> "DesignBatch":
+        """Designs from `as_matrix` rows; a matrix of a run made before the coil shape existed has
+        10 columns, and its designs are rectangular."""
         matrix = np.asarray(matrix, dtype=float)
         return cls(**{f.name: matrix[:, i] if f.name == "ring_radius_m" else np.rint(matrix[:, i])
-                      for i, f in enumerate(fields(cls))})
+                      for i, f in enumerate(fields(cls)) if i < matrix.shape[1]})
 
     def records(self, catalogs) -> list[dict]:
         """Designs as design-file dictionaries (ids and mm), for tables, CSV and design files."""
@@ -70,7 +81,8 @@ class DesignBatch:
              "multiple": int(self.multiple[i]), "ring_radius_mm": round(float(self.ring_radius_m[i]) * 1e3, 6),
              "disc": str(d[self.disc[i]]), "wire": str(w[self.wire[i]]), "strands": int(self.strands[i]),
              "turns": int(self.turns[i]), "parallel_paths": int(self.parallel_paths[i]),
-             "connection": CONNECTIONS[int(self.connection[i])]}
+             "connection": CONNECTIONS[int(self.connection[i])],
+             "coil_shape": COIL_SHAPES[int(self.coil_shape[i])]}
             for i in range(len(self))
         ]
 
@@ -126,10 +138,11 @@ def load_design(path, catalogs, winding_problem=None) -> DesignBatch:
     for key in data:
         if key not in DESIGN_KEYS:
             bad(key, "unknown key; " + did_you_mean(key, DESIGN_KEYS))
-    for key in DESIGN_KEYS:
+    required = [key for key in DESIGN_KEYS if key not in OPTIONAL_KEYS]
+    for key in required:
         if key not in data:
             problems.append(Problem(name, None, key, f"missing key (a design file sets all of "
-                                                     f"{', '.join(DESIGN_KEYS)})", "line", "key"))
+                                                     f"{', '.join(required)})", "line", "key"))
 
     index = {}
     for key, table in (("magnet", catalogs.magnets), ("layout", catalogs.layouts),
@@ -171,6 +184,9 @@ def load_design(path, catalogs, winding_problem=None) -> DesignBatch:
     connection = data.get("connection")
     if connection is not None and connection not in CONNECTIONS:
         bad("connection", f"must be \"star\" or \"delta\" (got {connection!r})")
+    shape = data.get("coil_shape", OPTIONAL_KEYS["coil_shape"])
+    if shape not in COIL_SHAPES:
+        bad("coil_shape", f"must be \"rectangular\" or \"keystone\" (got {shape!r})")
     if winding_problem is not None and None not in (multiple, paths) and "layout" in index:
         found = winding_problem(index["layout"], multiple, paths)
         if found:
@@ -180,4 +196,4 @@ def load_design(path, catalogs, winding_problem=None) -> DesignBatch:
     return DesignBatch(magnet=index["magnet"], layout=index["layout"], multiple=multiple,
                        ring_radius_m=float(radius) / 1e3, disc=index["disc"], wire=index["wire"],
                        strands=strands, turns=turns, parallel_paths=paths,
-                       connection=CONNECTIONS.index(connection))
+                       connection=CONNECTIONS.index(connection), coil_shape=COIL_SHAPES.index(shape))

@@ -364,7 +364,7 @@ class Evaluator:
         coil = geometry.coil_geometry(batch.ring_radius_m, mag["length_m"], mag["width_m"], coils,
                                       batch.turns, batch.strands, wire["overall_diameter_m"],
                                       sc.coil_fill_factor, sc.coil_hole_clearance_m, sc.resin_skin_m,
-                                      sc.running_clearance_m)
+                                      sc.running_clearance_m, coil_shape=batch.coil_shape)
         fit = geometry.fit_margins(batch.ring_radius_m, mag["length_m"], mag["width_m"],
                                    mag["thickness_m"], poles, disc["diameter_m"], disc["thickness_m"],
                                    coil, min_coil_leg_m=sc.min_coil_leg_m,

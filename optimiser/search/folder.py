@@ -295,12 +295,15 @@ def read_front_data(path, catalogs):
     except (OSError, ValueError, KeyError, EOFError, zipfile.BadZipFile) as exc:
         raise InputError([_problem(path, f"is damaged or not afpm's front data ({exc})")]) from None
     n_cols = len(fields(DesignBatch))
+    if codes.ndim == 2 and codes.shape[1] == n_cols - 1 and codes.dtype.kind == "i":
+        # a front saved before the coil shape existed: its designs are rectangular (code 0)
+        codes = np.hstack([codes, np.zeros((len(codes), 1), codes.dtype)])
     if rows.ndim != 1 or codes.shape != (len(rows), n_cols) or rows.dtype.kind != "i" \
             or codes.dtype.kind != "i":
         raise InputError([_problem(path, f"must hold integer rows (n) and codes (n, {n_cols}); holds "
                                          f"{rows.dtype}{rows.shape} and {codes.dtype}{codes.shape}")])
     sizes = [len(catalogs.magnets), len(catalogs.layouts), None, None, len(catalogs.discs),
-             len(catalogs.wires), None, None, None, 2]
+             len(catalogs.wires), None, None, None, 2, 2]
     bad = (rows < 0) | np.any(codes[:, [2, 3, 6, 7, 8]] < 1, axis=1)
     for j, size in enumerate(sizes):
         if size is not None:
@@ -341,7 +344,7 @@ class RunView:
             raise InputError([_problem(path, "missing: this run was made by an older afpm (or damaged); "
                                              "its front.csv is still readable as it is")])
         else:  # no generation saved yet: an empty front
-            self._rows, self._codes = np.empty(0, np.int64), np.empty((0, 10), np.int32)
+            self._rows, self._codes = np.empty(0, np.int64), np.empty((0, len(fields(DesignBatch))), np.int32)
 
     @property
     def model(self):

@@ -14,6 +14,8 @@ the last bit between a batch of one and a larger batch, so only equal chunks gua
 
 from __future__ import annotations
 
+from dataclasses import fields
+
 import numpy as np
 from pymoo.core.duplicate import DuplicateElimination
 from pymoo.core.problem import Problem
@@ -47,6 +49,8 @@ def front_values(evaluator):
 
 RING_COLUMN = 3
 """Column of the ring radius in DesignBatch.as_matrix (the only non-integer design field)."""
+N_DESIGN_COLUMNS = len(fields(DesignBatch))
+"""Columns of DesignBatch.as_matrix and of the cache's codes."""
 
 
 def split_chunks(matrix, chunk):
@@ -223,6 +227,9 @@ class DesignCache:
     def __setstate__(self, state):
         if state["G"].shape[1] > 1:  # a checkpoint from when every constraint was kept
             state["G"] = violation(state["G"])
+        missing = N_DESIGN_COLUMNS - state["codes"].shape[1]
+        if missing > 0:  # a checkpoint from before the coil shape: its designs are rectangular (0)
+            state["codes"] = np.hstack([state["codes"], np.zeros((len(state["codes"]), missing), np.int32)])
         self.__dict__.update(state)
         self.index = RowIndex()
         if self._n:
@@ -237,7 +244,7 @@ class SizingProblem(Problem):
         # One constraint for pymoo: the violation of all of them (see `violation`).
         super().__init__(vars=space.variables, n_obj=len(evaluator.objectives), n_ieq_constr=1)
         self.space, self.evaluator = space, evaluator
-        self.cache = DesignCache(n_var=10, n_obj=len(evaluator.objectives))
+        self.cache = DesignCache(n_var=space.design_columns, n_obj=len(evaluator.objectives))
         self.chunk = int(chunk)  # designs per chunk, fixed for the run's life (0: whole population)
         self.mapper = None       # where chunks are evaluated; never pickled (see __getstate__)
 

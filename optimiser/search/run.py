@@ -398,16 +398,23 @@ class SearchRun:
     def _write_front(self):
         ids, batch = self.front_designs()
         ev = self.state.problem.evaluator
-        header = ["id", *DESIGN_KEYS, *ev.objectives, *front_values(ev), "model"]
+        # Design keys added after the layout was fixed go just before "model" (the last column), so
+        # every earlier column keeps its position.
+        keys = [k for k in DESIGN_KEYS if k not in LATER_KEYS]
+        header = ["id", *keys, *ev.objectives, *front_values(ev), *LATER_KEYS, "model"]
         lines = []
         if len(batch):
             objectives, values = self._front_values()
             for i, rec in enumerate(batch.records(self.catalogs)):
-                lines.append([ids[i], *[rec[k] for k in DESIGN_KEYS], *map(_num, objectives[i]),
-                              *map(_num, values[i]), self.model])
+                lines.append([ids[i], *[rec[k] for k in keys], *map(_num, objectives[i]),
+                              *map(_num, values[i]), *[rec[k] for k in LATER_KEYS], self.model])
         write_front_data(self.dir / FRONT_DATA, self.state.archive,
                          self.state.problem.cache.codes[self.state.archive])
         write_atomic(self.dir / "front.csv", _csv_bytes(header, lines))
+
+
+LATER_KEYS = ("coil_shape",)
+"""Design keys written just before the "model" column of front.csv (added after its layout was fixed)."""
 
 
 def _num(x):

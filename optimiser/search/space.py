@@ -8,6 +8,8 @@ allowed value (many genotypes, one design: the evaluation cache keys on the deco
 
 from __future__ import annotations
 
+from dataclasses import fields
+
 import numpy as np
 from pymoo.core.variable import Choice, Integer
 
@@ -15,6 +17,7 @@ from ..design import DesignBatch
 
 VARIABLES = ("magnet", "layout", "multiple", "ring", "disc", "wire", "strands", "turns", "paths",
              "connection")
+"""Variables of every space; `coil_shape` joins them where the scenario allows more than one shape."""
 
 
 class SearchSpace:
@@ -54,6 +57,11 @@ class SearchSpace:
         idx = np.where(ok, np.arange(ok.shape[1])[None, :], 0)
         self._paths_lut = np.maximum(np.maximum.accumulate(idx, axis=1), 1)
 
+    @property
+    def design_columns(self):
+        """Columns of the designs this space decodes to (DesignBatch.as_matrix), the cache's width."""
+        return len(fields(DesignBatch))
+
     def random_columns(self, n, rng):
         """n uniformly random genotypes as integer columns (decode them with `decode_columns`)."""
         return {name: rng.choice(var.options, n) if isinstance(var, Choice)
@@ -66,7 +74,7 @@ class SearchSpace:
 
     def decode(self, X) -> DesignBatch:
         """Designs from pymoo's mixed-variable population: an object array of dicts."""
-        cols = {name: np.fromiter((x[name] for x in X), dtype=np.int64, count=len(X)) for name in VARIABLES}
+        cols = {name: np.fromiter((x[name] for x in X), dtype=np.int64, count=len(X)) for name in self.variables}
         return self.decode_columns(cols)
 
     def decode_columns(self, cols) -> DesignBatch:
@@ -78,7 +86,8 @@ class SearchSpace:
         return DesignBatch(magnet=cols["magnet"], layout=layout, multiple=multiple,
                            ring_radius_m=self.ring_min + self.ring_step * cols["ring"],
                            disc=cols["disc"], wire=cols["wire"], strands=cols["strands"],
-                           turns=cols["turns"], parallel_paths=paths, connection=cols["connection"])
+                           turns=cols["turns"], parallel_paths=paths, connection=cols["connection"],
+                           coil_shape=cols.get("coil_shape", 0))
 
     def genotypes(self, matrix) -> list[dict]:
         """pymoo genotypes (dicts of VARIABLES) of designs given as DesignBatch matrix rows.

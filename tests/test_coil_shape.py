@@ -1,0 +1,109 @@
+"""The coil shape as a design choice: design-file key, batch field, and old files and runs.
+
+`coil_shape` = "rectangular" (the default when a file leaves it out, so every design file and run
+folder written before it keeps its meaning) or "keystone" (physics/geometry.py says which keystone).
+"""
+
+from __future__ import annotations
+
+import re
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from optimiser.catalogs import load_catalogs
+from optimiser.cli import EXIT_INPUT, app
+from optimiser.design import COIL_SHAPES, DesignBatch, design_toml, load_design
+from optimiser.evaluate import Evaluator
+from optimiser.physics import geometry
+from optimiser.scenario import load_scenario
+from optimiser.search.folder import read_front_data, write_front_data
+from optimiser.search.problem import DesignCache
+from optimiser.search.space import SearchSpace
+
+CATALOGS = Path(__file__).resolve().parents[1] / "catalogs"
+
+
+@pytest.fixture(scope="module")
+def demo():
+    catalogs = load_catalogs(CATALOGS)
+    return catalogs, Evaluator(catalogs, load_scenario(None))
+
+
+@pytest.fixture(scope="module")
+def batch(demo):
+    return SearchSpace(demo[1]).sample(400, np.random.default_rng(17))
+
+
+def test_shape_names_match_the_geometry():
+    assert COIL_SHAPES == geometry.COIL_SHAPES
+
+
+def test_design_file_without_the_key_is_rectangular_and_keystone_round_trips(demo, batch, tmp_path):
+    catalogs, _ = demo
+    record = batch.take([0]).records(catalogs)[0]
+    assert record["coil_shape"] == "rectangular"
+    old = "\n".join(line for line in design_toml(record).splitlines() if not line.startswith("coil_shape"))
+    path = tmp_path / "old.toml"
+    path.write_text(old + "\n", encoding="utf-8")
+    assert load_design(path, catalogs).coil_shape.tolist() == [0]
+    path.write_text(design_toml(record | {"coil_shape": "keystone"}), encoding="utf-8")
+    one = load_design(path, catalogs)
+    assert one.coil_shape.tolist() == [1]
+    assert one.records(catalogs)[0] == record | {"coil_shape": "keystone"}
+
+
+@pytest.mark.parametrize("value", ['"round"', "1", '"Keystone"'])
+def test_bad_coil_shape_is_one_line_with_its_key(runner, demo, batch, tmp_path, value):
+    catalogs, _ = demo
+    text = re.sub(r'(?m)^coil_shape = .*$', f"coil_shape = {value}",
+                  design_toml(batch.take([0]).records(catalogs)[0]))
+    path = tmp_path / "bad.toml"
+    path.write_text(text, encoding="utf-8")
+    res = runner.invoke(app, ["evaluate", "--catalogs", str(CATALOGS), "--design", str(path)])
+    assert res.exit_code == EXIT_INPUT, res.output
+    lines = [ln for ln in res.output.splitlines() if ln.strip()][:-1]
+    assert len(lines) == 1 and re.search(r": line \d+, key coil_shape: ", lines[0]), lines
+    assert '"rectangular" or "keystone"' in lines[0] and "Traceback" not in res.output
+
+
+def test_matrix_of_an_old_run_decodes_as_rectangular(batch):
+    m = batch.as_matrix()
+    assert m.shape[1] == 11
+    old = DesignBatch.from_matrix(m[:, :10])
+    assert np.all(old.coil_shape == 0)
+    assert np.array_equal(old.as_matrix()[:, :10], m[:, :10])
+    assert np.array_equal(DesignBatch.from_matrix(m).as_matrix(), m)
+
+
+def test_old_cache_and_front_data_read_with_rectangular_coils(demo, batch, tmp_path):
+    catalogs, _ = demo
+    codes = DesignCache.encode(batch.as_matrix())
+    cache = DesignCache(n_var=10, n_obj=4)  # the width a run made before the coil shape had
+    cache.lookup(batch.as_matrix()[:5, :10], lambda m: (np.zeros((len(m), 4)), np.zeros((len(m), 3))))
+    state = cache.__getstate__()
+    restored = DesignCache.__new__(DesignCache)
+    restored.__setstate__(state)
+    assert restored.codes.shape[1] == 11 and np.all(restored.codes[:, 10] == 0)
+    rows = restored.lookup(batch.as_matrix()[:5], lambda m: pytest.fail("seen before: no evaluation"))
+    assert rows.tolist() == [0, 1, 2, 3, 4]
+    write_front_data(tmp_path / "front.npz", np.arange(5), codes[:5, :10])
+    _, read = read_front_data(tmp_path / "front.npz", catalogs)
+    assert read.shape == (5, 11) and np.all(read[:, 10] == 0)
+    bad = codes[:5].copy()
+    bad[0, 10] = 2
+    write_front_data(tmp_path / "front.npz", np.arange(5), bad)
+    with pytest.raises(Exception, match="out of the catalogs' ranges"):
+        read_front_data(tmp_path / "front.npz", catalogs)
+
+
+def test_evaluator_gives_keystone_designs_their_own_coil(demo, batch):
+    _, evaluator = demo
+    rect = evaluator.evaluate(batch)
+    key = evaluator.evaluate(DesignBatch.from_matrix(np.column_stack([batch.as_matrix()[:, :10],
+                                                                      np.ones(len(batch))])))
+    fits = rect["coil_leg_width_m"] > 0
+    assert fits.sum() > 50
+    assert np.all(key["coil_leg_width_m"][fits] > rect["coil_leg_width_m"][fits])
+    assert np.all(key["coil_hole_radial_m"] == rect["coil_hole_radial_m"])
