@@ -7,7 +7,6 @@ code 2, without a traceback.
 from __future__ import annotations
 
 import functools
-import json
 import math
 import signal
 import sys
@@ -26,11 +25,12 @@ from .catalogs import catalog_summary, load_catalogs
 from .design import load_design
 from .errors import InputError, Problem
 from .evaluate import Evaluator, Settings
-from .report.evaluation import design_report, finite_or_none, rpm_table
+from .report.evaluation import design_report, rpm_table
 from .report.front_data import plural
 from .scenario import FIELDS, load_scenario, write_template
 from .search import parallel as _parallel
 from .search.run import Budget, SearchRun, StopFlag, create_run, new_run_dir, run_search
+from .strict_json import dumps as json_dumps
 
 __all__ = ["app", "run_checked", "input_command", "report_problems", "EXIT_INPUT"]
 
@@ -121,15 +121,15 @@ def catalogs_check(
         cat = load_catalogs(directory)
     except InputError as exc:
         if as_json:
-            typer.echo(json.dumps({"ok": False, "problems": [p.as_dict() for p in exc.problems]},
+            typer.echo(json_dumps({"ok": False, "problems": [p.as_dict() for p in exc.problems]},
                                   indent=2))
             raise typer.Exit(EXIT_INPUT)
         report_problems(exc.problems)
         raise typer.Exit(EXIT_INPUT)
     summary = catalog_summary(cat)
     if as_json:
-        typer.echo(json.dumps({"ok": True, "directory": str(directory), "catalogs": summary},
-                              indent=2, allow_nan=False))
+        typer.echo(json_dumps({"ok": True, "directory": str(directory), "catalogs": summary},
+                              indent=2))
         return
     table = Table(title=f"Catalogs in {directory}: all rows valid")
     for name in ("Catalog", "Rows", "Ranges", "File"):
@@ -341,7 +341,7 @@ def evaluate_command(
     report["rpm_table"] = rows
     report["provenance"] = _provenance(sc, cat, settings, front)
     if as_json:
-        typer.echo(json.dumps(finite_or_none(report), indent=2, allow_nan=False))
+        typer.echo(json_dumps(report, indent=2))
     else:
         p = report["provenance"]
         typer.echo(f"Boat: {p['boat']} ({p['scenario']}); battery {p['battery']}; sailing at "

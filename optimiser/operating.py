@@ -283,8 +283,9 @@ class PropellerTable:
         s, m = table.shape
         shape = np.broadcast_shapes(rpm.shape, (s,))
         t = np.broadcast_to(rpm, shape) / self.rpm_grid[1]
-        i = np.clip(np.floor(t), 0, m - 2).astype(np.intp)
-        w = t - i
+        finite = np.isfinite(t)  # NaN rpm (a design that cannot be built): NaN out, never an index
+        i = np.clip(np.floor(np.where(finite, t, 0.0)), 0, m - 2).astype(np.intp)
+        w = np.where(finite, t - i, np.nan)
         flat = table.ravel()
         base = np.broadcast_to(np.arange(s) * m, shape) + i
         return flat[base] * (1.0 - w) + flat[base + 1] * w

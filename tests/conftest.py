@@ -69,3 +69,19 @@ def header_row():
     def _row(path: Path) -> int:
         return _first_data_line(path.read_text(encoding="utf-8").splitlines()) + 1
     return _row
+
+
+def _strict_loads(text: str):
+    """Parse `text` as RFC 8259 JSON: a bare NaN, Infinity or -Infinity fails the test."""
+    import json
+
+    def refuse(name):
+        pytest.fail(f"bare {name} in JSON output (RFC 8259 has no such token)")
+
+    return json.loads(text, parse_constant=refuse)
+
+
+@pytest.fixture
+def strict_json():
+    """strict_json(text) -> the parsed object; fails on NaN/Infinity tokens (RFC 8259)."""
+    return _strict_loads

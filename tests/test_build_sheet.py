@@ -247,3 +247,16 @@ def test_injected_catalog_text_stays_text_in_the_build_sheet(tmp_path, runner):
     assert sheet.scripts == 0
     assert PAYLOAD in " ".join(sheet.text)  # shown to the reader as the text it is
     assert "&lt;script&gt;alert(1)&lt;/script&gt;" in (run.dir / f"build-{design_id}.md").read_text()
+
+
+def test_evaluate_a_front_design_of_the_run_as_strict_json(run, strict_json):
+    # afpm evaluate --run RUN --id ID: the run's own scenario and snapshot, RFC 8259 output.
+    from typer.testing import CliRunner
+
+    row = _front(run.dir)[0]
+    result = CliRunner().invoke(app, ["evaluate", "--run", str(run.dir), "--id", row["id"], "--json"])
+    assert result.exit_code == 0, result.output
+    report = strict_json(result.stdout)
+    assert report["feasible"] is True
+    assert math.isclose(report["at_sailing"]["charge_current_A"], float(row["charge_current_A"]),
+                        rel_tol=1e-5)  # (front.csv holds 6 significant digits)

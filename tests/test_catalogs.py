@@ -8,7 +8,6 @@ from __future__ import annotations
 import csv
 import hashlib
 import io
-import json
 
 import numpy as np
 import pytest
@@ -76,21 +75,21 @@ def test_check_command_prints_summary(runner, demo_catalogs_dir):
         assert name in result.stdout
 
 
-def test_check_json_summary_matches_catalog_summary(runner, demo_catalogs_dir):
+def test_check_json_summary_matches_catalog_summary(runner, demo_catalogs_dir, strict_json):
     result = check(runner, demo_catalogs_dir, "--json")
     assert result.exit_code == 0
-    data = json.loads(result.stdout)
+    data = strict_json(result.stdout)
     assert data["ok"] is True
     assert data["catalogs"] == catalog_summary(load_catalogs(demo_catalogs_dir))
     magnets = data["catalogs"][0]
     assert magnets["rows"] == 13 and magnets["ranges"]["length_m"] == [0.03, 0.06]
 
 
-def test_check_json_lists_problems(runner, catalog_copy, set_cell):
+def test_check_json_lists_problems(runner, catalog_copy, set_cell, strict_json):
     row = set_cell(catalog_copy / "discs.csv", "S235-300x8", "thickness_mm", "-3")
     result = check(runner, catalog_copy, "--json")
     assert result.exit_code == 2
-    data = json.loads(result.stdout)
+    data = strict_json(result.stdout)
     assert data["ok"] is False
     assert data["problems"] == [{"file": str(catalog_copy / "discs.csv"), "row": row,
                                  "column": "thickness_mm", "message": "must be > 0 mm (got -3)"}]

@@ -86,10 +86,10 @@ def test_table_output_shows_the_design_and_the_rpm_table(runner, demo_catalogs_d
     assert "warning:" in out  # rotor attraction at least: a safety caution is always printed
 
 
-def test_json_has_every_key_of_the_issue(runner, demo_catalogs_dir, design_file, demo):
+def test_json_has_every_key_of_the_issue(runner, demo_catalogs_dir, design_file, demo, strict_json):
     res = run(runner, demo_catalogs_dir, "--design", design_file, "--json")
     assert res.exit_code == 0, res.output
-    js = json.loads(res.output)
+    js = strict_json(res.output)
     for group, keys in ISSUE_KEYS.items():
         missing = keys - set(js[group])
         assert not missing, f"{group} lacks {sorted(missing)}"

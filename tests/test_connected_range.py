@@ -8,7 +8,6 @@ the range (a fine rpm sweep, an independent evaluation of the same designs, neve
 from __future__ import annotations
 
 import dataclasses
-import json
 from pathlib import Path
 
 import numpy as np
@@ -109,7 +108,8 @@ def test_propeller_fastest_point_is_the_loaded_rpm_at_the_fastest_boat_speed(cat
     np.testing.assert_array_equal(ev.constraints[:, HOT], (hottest - ev["coil_limit_C"]) / 100.0)
 
 
-def test_json_and_warnings_for_a_design_hot_only_at_the_fastest_speed(demo, catalogs, tmp_path, runner):
+def test_json_and_warnings_for_a_design_hot_only_at_the_fastest_speed(demo, catalogs, tmp_path, runner,
+                                                                     strict_json):
     evaluator, batch, ev = demo
     sail = evaluator.evaluate(batch, rpm=180.0)
     hot_fast = np.flatnonzero(np.all(sail.constraints <= 0, axis=1) & (ev.constraints[:, HOT] > 0))
@@ -118,7 +118,7 @@ def test_json_and_warnings_for_a_design_hot_only_at_the_fastest_speed(demo, cata
     path.write_text(design_toml(batch.take(hot_fast[:1]).records(catalogs)[0]))
     result = runner.invoke(app, ["evaluate", "--design", str(path), "--json"])
     assert result.exit_code == 0, result.output
-    rep = json.loads(result.stdout)
+    rep = strict_json(result.stdout)
     assert set(rep["at_fastest_sailing"]) == set(rep["at_sailing"])
     assert rep["at_fastest_sailing"]["rpm"] == 240.0 and rep["inputs"]["fastest_sailing_rpm"] == 240.0
     assert rep["at_fastest_sailing"]["coil_temperature_C"] > rep["limits"]["coil_C"] > rep["at_sailing"]["coil_temperature_C"]

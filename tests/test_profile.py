@@ -1,7 +1,6 @@
 """The propeller in the evaluator: loaded operating point per boat speed, amp-hours per day, drag."""
 
 import dataclasses
-import json
 from pathlib import Path
 
 import numpy as np
@@ -99,7 +98,7 @@ def test_without_a_propeller_nothing_changes(catalogs, sample):
     np.testing.assert_array_equal(ev0["charge_current_A"], ev["charge_current_A"])
 
 
-def test_evaluate_json_has_the_boat_speed_table(runner, catalogs, sample, tmp_path):
+def test_evaluate_json_has_the_boat_speed_table(runner, catalogs, sample, tmp_path, strict_json):
     _, batch, _ = sample
     design = tmp_path / "d.toml"
     design.write_text(design_toml(batch.take([0]).records(catalogs)[0]))
@@ -108,7 +107,7 @@ def test_evaluate_json_has_the_boat_speed_table(runner, catalogs, sample, tmp_pa
     res = runner.invoke(app, ["evaluate", "--design", str(design), "--scenario", str(scenario),
                               "--catalogs", str(CATALOGS), "--json"])
     assert res.exit_code == 0, res.output
-    out = json.loads(res.stdout)
+    out = strict_json(res.stdout)
     rows = out["sailing_profile"]
     assert [r["boat_speed_kn"] for r in rows] == [4.0, 5.0, 6.0, 7.0]
     for key in ("rpm", "free_wheel_rpm", "charge_current_A", "drag_force_N", "added_drag_N",

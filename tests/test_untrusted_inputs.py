@@ -75,18 +75,64 @@ def _design(cat, ring="100"):
             'parallel_paths = 1\nconnection = "star"\n')
 
 
-def test_evaluate_json_is_strict_for_a_design_that_cannot_be_built(tmp_path, demo_catalogs_dir, runner):
+def test_strict_json_turns_every_non_finite_number_into_null(strict_json):
+    import numpy as np
+
+    from optimiser.strict_json import dumps
+
+    obj = {"a": float("nan"), "b": [np.inf, -np.inf, np.float32("nan"), 1.5], "c": np.array([np.nan, 2.0]),
+           "d": (np.int64(3), np.bool_(True)), "e": {"f": np.float64("-inf")}}
+    assert strict_json(dumps(obj)) == {"a": None, "b": [None, None, None, 1.5], "c": [None, 2.0],
+                                       "d": [3, True], "e": {"f": None}}
+    with pytest.raises(TypeError):  # not JSON at all: refused, never written as something else
+        dumps({"x": object()})
+
+
+def test_every_json_the_package_writes_goes_through_the_strict_helper():
+    # RFC 8259 output is promised everywhere: a bare json.dumps anywhere else would write NaN.
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parents[1] / "optimiser"
+    offenders = [str(p.relative_to(root)) for p in root.rglob("*.py")
+                 if p.name != "strict_json.py" and ("json.dumps(" in p.read_text(encoding="utf-8")
+                                                    or "json.dump(" in p.read_text(encoding="utf-8"))]
+    assert offenders == []
+
+
+@pytest.mark.parametrize("broken", [False, True])
+def test_catalogs_check_json_is_strict(catalog_copy, runner, strict_json, broken):
+    if broken:
+        _note_cell(catalog_copy, "fine").write_text("id,diameter_mm,thickness_mm,price_each\nd1,nan,8,30\n")
+    result = runner.invoke(app, ["catalogs", "check", str(catalog_copy), "--json"])
+    report = strict_json(result.stdout)
+    assert result.exit_code == (2 if broken else 0) and report["ok"] is (not broken)
+    if broken:
+        assert [p["column"] for p in report["problems"]] == ["diameter_mm"]
+
+
+@pytest.mark.parametrize("boat", ["", "propeller_diameter_mm = 406\n"], ids=["demo", "propeller"])
+def test_evaluate_json_is_strict_for_a_design_that_cannot_be_built(tmp_path, demo_catalogs_dir, runner,
+                                                                   strict_json, boat):
     # A 10 mm ring: the validator accepts it (it is a number in range); the magnets overlap, so
     # there is no field, EMF or current: null in JSON, "-" in the table, and the reasons listed.
+    # A design that does not work still exits 0 (its "feasible" and problems say so).
     cat = load_catalogs(demo_catalogs_dir)
     path = tmp_path / "d.toml"
     path.write_text(_design(cat, ring="10"), encoding="utf-8")
-    result = runner.invoke(app, ["evaluate", "--design", str(path), "--json"])
-    assert result.exit_code == 0
-    report = json.loads(result.stdout, parse_constant=lambda name: pytest.fail(f"bare {name} in JSON"))
+    scenario = tmp_path / "boat.toml"
+    scenario.write_text(boat, encoding="utf-8")
+    args = ["evaluate", "--design", str(path), "--scenario", str(scenario)]
+    result = runner.invoke(app, [*args, "--json"])
+    assert result.exit_code == 0, result.output
+    report = strict_json(result.stdout)
     assert report["cut_in_rpm"] is None and report["feasible"] is False and report["problems"]
-    text = runner.invoke(app, ["evaluate", "--design", str(path)])
+    if boat:
+        assert report["sailing_profile"] and report["amp_hours_per_day"] is None or \
+            math.isfinite(report["amp_hours_per_day"])
+    text = runner.invoke(app, args)
     assert text.exit_code == 0 and "nan" not in text.stdout.lower() and "does not work" in text.stdout
+    assert "inf" not in text.stdout.lower().replace("info", "")
+
 
 
 # --- catalogs -------------------------------------------------------------------------------------

@@ -9,6 +9,7 @@ import numpy as np
 
 from ..design import CONNECTIONS, DesignBatch
 from ..evaluate import CONSTRAINTS, ELV_LIMIT_AC_RMS_V, Evaluator
+from ..strict_json import finite_or_none  # noqa: F401  (kept importable from here)
 
 DEG_C = "\N{DEGREE SIGN}C"
 
@@ -23,20 +24,6 @@ def _f(x):
     if isinstance(x, (bool, np.bool_)):
         return bool(x)
     return float(x)
-
-
-def finite_or_none(obj):
-    """`obj` with every NaN or infinite number replaced by None: strict JSON (RFC 8259 has no NaN).
-
-    A design whose geometry cannot be built has no EMF, current or temperature; JSON says null.
-    """
-    if isinstance(obj, dict):
-        return {k: finite_or_none(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [finite_or_none(v) for v in obj]
-    if isinstance(obj, (float, np.floating)):
-        return float(obj) if np.isfinite(obj) else None
-    return obj
 
 
 def operating_point(ev, i=0):

@@ -32,6 +32,7 @@ from ..report.evaluation import design_report
 from ..safe_io import RunLock, write_atomic
 from .drawing import PALETTE
 from .front_data import DEG_C, column_label, format_value, load_front, plural, representatives, temperature_text
+from ..strict_json import dumps as json_dumps
 
 __all__ = ["open_run", "front_reports", "page_data", "front_page_html", "write_front_page",
            "script_json", "read_page_data", "FRONT_PAGE", "DEFAULT_SHOW"]
@@ -46,7 +47,7 @@ def open_run(run_dir):
 
 def script_json(obj) -> str:
     """JSON safe inside a <script> element: no '<', '>' or '&' characters survive."""
-    text = json.dumps(obj, ensure_ascii=False, separators=(",", ":"), allow_nan=False)
+    text = json_dumps(obj, ensure_ascii=False, separators=(",", ":"))
     return (text.replace("&", "\\u0026").replace("<", "\\u003c").replace(">", "\\u003e")
             .replace("\u2028", "\\u2028").replace("\u2029", "\\u2029"))
 

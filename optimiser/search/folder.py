@@ -37,6 +37,7 @@ from ..errors import InputError, Problem
 from ..evaluate import Evaluator, Settings
 from ..safe_io import atomic_writer, refuse_link
 from ..scenario import load_scenario
+from ..strict_json import dumps as json_dumps
 
 __all__ = ["RUN_JSON", "SCENARIO", "CATALOGS", "CHECKPOINT", "FRONT_DATA", "read_meta", "load_inputs",
            "sha256_file", "checkpoint_key", "write_checkpoint", "read_checkpoint", "write_front_data",
@@ -120,7 +121,7 @@ def read_meta(run_dir) -> dict:
             bad(key, "missing")
         elif not _is(meta[key], kind):
             bad(key, f"must be {'a whole number' if kind is int else 'a JSON ' + kind.__name__} "
-                     f"(got {json.dumps(meta[key])[:40]})")
+                     f"(got {json_dumps(meta[key])[:40]})")
     if not problems:
         if meta["population"] < 2:
             bad("population", f"must be at least 2 (got {meta['population']})")
@@ -129,13 +130,13 @@ def read_meta(run_dir) -> dict:
             if key not in ("evaluations", "seconds"):
                 bad(f"budget.{key}", "unknown key; allowed: evaluations, seconds")
             elif budget[key] is not None and not (_is(budget[key], float) and budget[key] >= 0):
-                bad(f"budget.{key}", f"must be null or a number >= 0 (got {json.dumps(budget[key])})")
+                bad(f"budget.{key}", f"must be null or a number >= 0 (got {json_dumps(budget[key])})")
         kinds = {f.name: type(f.default) for f in fields(Settings)}
         for key, value in meta["settings"].items():
             if key not in kinds:
                 bad(f"settings.{key}", "unknown setting; allowed: " + ", ".join(kinds))
             elif not (isinstance(value, kinds[key]) and (kinds[key] is bool or not isinstance(value, bool))):
-                bad(f"settings.{key}", f"must be a JSON {kinds[key].__name__} (got {json.dumps(value)})")
+                bad(f"settings.{key}", f"must be a JSON {kinds[key].__name__} (got {json_dumps(value)})")
         if meta["settings"].get("field_model", "fast") not in ("fast", "reference"):
             bad("settings.field_model", "must be \"fast\" or \"reference\"")
         names = {f"{n}.csv" for n in CATALOG_NAMES}

@@ -53,6 +53,7 @@ from .front import hypervolume, merge_front
 from .mating import FrontFillMating
 from .problem import DesignDuplicateElimination, SizingProblem, evaluate_designs, front_values
 from .space import SearchSpace
+from ..strict_json import dumps as json_dumps
 
 HV_POINTS_PER_GENERATION = 250
 """The archive's hypervolume is recomputed every max(1, front size // this) generations: in four
@@ -153,7 +154,7 @@ def create_run(run_dir, scenario_path, catalogs_dir, *, seed, population, budget
             "catalog_source": str(catalogs_dir.resolve()), "catalog_hashes": hashes,
             "status": "new", "generations": 0, "evaluations": 0, "elapsed_s": 0.0,
         }
-        write_atomic(tmp / RUN_JSON, json.dumps(meta, indent=2))
+        write_atomic(tmp / RUN_JSON, json_dumps(meta, indent=2))
         fsync_dir(tmp / CATALOGS)
         try:
             os.rename(tmp, run_dir)  # POSIX: replaces an empty folder, fails on a full one
@@ -363,7 +364,7 @@ class SearchRun:
         self.meta.update(status=status, generations=len(self.state.history),
                          evaluations=self.evaluations, elapsed_s=round(self.state.elapsed_s, 3),
                          front_size=int(len(self.state.archive)))
-        write_atomic(self.dir / "run.json", json.dumps(self.meta, indent=2).encode())
+        write_atomic(self.dir / "run.json", json_dumps(self.meta, indent=2).encode())
         self._last_save = time.monotonic()
         self._save_s = self._last_save - t0
         return True
