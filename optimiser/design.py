@@ -8,6 +8,7 @@ catalogs; files and tables show the ids.
 
 from __future__ import annotations
 
+import math
 import re
 import tomllib
 from dataclasses import dataclass, fields
@@ -110,6 +111,32 @@ def _key_lines(text: str) -> dict[str, int]:
     return found
 
 
+def _non_finite(value, where=""):
+    """"" (or "element i of ... ") when `value`, or a number inside its lists and tables, is NaN or
+    infinite; None when every number in it is finite."""
+    if isinstance(value, float) and not math.isfinite(value):
+        return where
+    if isinstance(value, list):
+        for i, item in enumerate(value, start=1):
+            found = _non_finite(item, f"{where}element {i}: ")
+            if found is not None:
+                return found
+    if isinstance(value, dict):
+        for name, item in value.items():
+            found = _non_finite(item, f"{where}{name}: ")
+            if found is not None:
+                return found
+    return None
+
+
+def _non_finite_value(value):
+    """The first NaN or infinite number inside `value` (see `_non_finite`)."""
+    if isinstance(value, float):
+        return value
+    items = value.values() if isinstance(value, dict) else value
+    return next(_non_finite_value(v) for v in items if _non_finite(v) is not None)
+
+
 def load_design(path, catalogs, winding_problem=None) -> DesignBatch:
     """Read a design file (TOML with exactly DESIGN_KEYS) into a batch of one, checking everything.
 
@@ -143,6 +170,12 @@ def load_design(path, catalogs, winding_problem=None) -> DesignBatch:
         if key not in data:
             problems.append(Problem(name, None, key, f"missing key (a design file sets all of "
                                                      f"{', '.join(required)})", "line", "key"))
+
+    for key in [k for k in data if k in DESIGN_KEYS]:  # TOML allows nan and inf; no design key means either
+        where = _non_finite(data[key])
+        if where is not None:
+            bad(key, f"{where}must be a finite number (got {_non_finite_value(data[key])!r})")
+            del data[key]  # (reported once: no range or type check on it)
 
     index = {}
     for key, table in (("magnet", catalogs.magnets), ("layout", catalogs.layouts),

@@ -68,6 +68,54 @@ def test_design_file_refuses_a_non_finite_ring(tmp_path, demo_catalogs_dir, lite
     assert p.column == "ring_radius_mm" and p.row == 4
 
 
+DESIGN_KEYS_IN_ORDER = ("magnet", "layout", "multiple", "ring_radius_mm", "disc", "wire", "strands", "turns",
+                       "parallel_paths", "connection")
+
+
+@pytest.mark.parametrize("form", ["{}", "[1.0, {}]", "[[2.0], [{}]]", "{{ a = 1.0, b = {} }}"],
+                         ids=["value", "list element", "nested list", "inline table"])
+@pytest.mark.parametrize("literal", ["nan", "inf", "-inf", "+nan"])
+@pytest.mark.parametrize("key", DESIGN_KEYS_IN_ORDER)
+def test_design_file_refuses_nan_and_infinity_for_every_key(tmp_path, demo_catalogs_dir, key, literal, form):
+    # TOML 1.0 allows nan and inf, alone or inside arrays and tables: the key and its line are named.
+    cat = demo_catalogs(demo_catalogs_dir)
+    lines = _design(cat).splitlines()
+    number = DESIGN_KEYS_IN_ORDER.index(key) + 1
+    assert lines[number - 1].startswith(f"{key} =")
+    lines[number - 1] = f"{key} = {form.format(literal)}"
+    path = tmp_path / "d.toml"
+    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    (p,) = _problems(load_design, path, cat)
+    assert (p.file, p.row, p.column) == (str(path), number, key)
+    assert "must be a finite number" in p.message and literal.lstrip("+-") in p.message
+    if form != "{}":
+        assert "element" in p.message or "b:" in p.message
+
+
+@pytest.mark.parametrize("key", ["turns", "ring_radius_mm", "layout"])
+def test_evaluate_refuses_a_non_finite_design_value_with_exit_2(tmp_path, demo_catalogs_dir, runner, key):
+    cat = demo_catalogs(demo_catalogs_dir)
+    number = DESIGN_KEYS_IN_ORDER.index(key) + 1
+    lines = _design(cat).splitlines()
+    lines[number - 1] = f"{key} = [60, inf]"
+    path = tmp_path / "d.toml"
+    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    result = runner.invoke(app, ["evaluate", "--design", str(path)])
+    assert result.exit_code == 2
+    assert result.stderr.strip().splitlines() == [
+        f"{path}: line {number}, key {key}: element 2: must be a finite number (got inf)", "1 problem found."]
+
+
+_CATALOGS = {}
+
+
+def demo_catalogs(directory):
+    """The demo catalogs, read once for the many parametrised cases."""
+    if directory not in _CATALOGS:
+        _CATALOGS[directory] = load_catalogs(directory)
+    return _CATALOGS[directory]
+
+
 def _design(cat, ring="100"):
     return (f'magnet = "{cat.magnets["id"][0]}"\nlayout = "{cat.layouts["id"][0]}"\n'
             f'multiple = {int(cat.layouts["min_multiple"][0])}\nring_radius_mm = {ring}\n'
