@@ -252,3 +252,67 @@ def test_a_nul_byte_is_refused_with_its_line(catalog_copy, runner):
     path.write_bytes(b"id,diameter_mm,thickness_mm,price_each\nd1,300,8,30\nd2,2\x0050,6,20\n")
     result = runner.invoke(app, ["catalogs", "check", str(catalog_copy)])
     assert result.exit_code == 2 and f"{path}: row 3: holds a NUL byte" in result.stderr
+
+
+# Every catalog, every line separator: Python's str.splitlines splits on all of these, a CSV record
+# ends only at CR, LF or CRLF (RFC 4180), and a quoted cell may hold CR and LF themselves.
+LINE_SEPARATORS = {"LF": "\n", "CRLF": "\r\n", "CR": "\r", "U+2028": "\u2028", "U+2029": "\u2029",
+                   "NEL": "\u0085", "VT": "\x0b", "FF": "\x0c", "FS": "\x1c", "GS": "\x1d", "RS": "\x1e"}
+CATALOG_FILES = ("magnets", "wires", "layouts", "discs")
+
+
+def _rows_of(path):
+    import csv
+
+    with open(path, newline="", encoding="utf-8") as fh:
+        rows = [r for r in csv.reader(fh) if r and not r[0].startswith("#")]
+    return rows[0], rows[1:]
+
+
+def _rewrite(path, header, rows, quoting):
+    import csv
+    import io
+
+    buf = io.StringIO()
+    csv.writer(buf, quoting=quoting).writerows([header, *rows])  # CRLF, as spreadsheets write
+    path.write_text(buf.getvalue(), encoding="utf-8", newline="")
+
+
+@pytest.mark.parametrize("quoting", ["minimal", "all"])
+@pytest.mark.parametrize("sep", LINE_SEPARATORS, ids=list(LINE_SEPARATORS))
+@pytest.mark.parametrize("name", CATALOG_FILES)
+def test_every_catalog_keeps_a_line_separator_inside_its_cell(catalog_copy, name, sep, quoting):
+    import csv
+
+    path = catalog_copy / f"{name}.csv"
+    header, rows = _rows_of(path)
+    note = f"first part{LINE_SEPARATORS[sep]}second part"
+    rows[0][header.index("note")] = note
+    _rewrite(path, header, rows, csv.QUOTE_MINIMAL if quoting == "minimal" else csv.QUOTE_ALL)
+    frame = getattr(load_catalogs(catalog_copy), name)
+    assert list(frame["id"]) == [r[0] for r in rows]
+    assert frame["note"][0] == note
+
+
+@pytest.mark.parametrize("name", CATALOG_FILES)
+def test_every_catalog_refuses_a_nul_byte_naming_file_and_row(catalog_copy, runner, name):
+    path = catalog_copy / f"{name}.csv"
+    lines = path.read_bytes().split(b"\n")
+    last = max(i for i, ln in enumerate(lines) if ln.strip() and not ln.startswith(b"#"))
+    lines[last] = lines[last].replace(b",", b",\x00", 1)
+    path.write_bytes(b"\n".join(lines))
+    result = runner.invoke(app, ["catalogs", "check", str(catalog_copy)])
+    assert result.exit_code == 2
+    assert f"{path}: row {last + 1}: holds a NUL byte" in result.stderr
+
+
+@pytest.mark.parametrize("name", CATALOG_FILES)
+def test_every_catalog_refuses_a_line_separator_inside_an_id(catalog_copy, runner, name):
+    import csv
+
+    path = catalog_copy / f"{name}.csv"
+    header, rows = _rows_of(path)
+    rows[1][0] = rows[1][0][:2] + "\u2028" + rows[1][0][2:]
+    _rewrite(path, header, rows, csv.QUOTE_MINIMAL)
+    result = runner.invoke(app, ["catalogs", "check", str(catalog_copy)])
+    assert result.exit_code == 2 and f"{path}: row 3, column id: must be one line" in result.stderr
