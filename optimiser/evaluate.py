@@ -645,9 +645,21 @@ class Evaluator:
                          pole_pairs, batch.ring_radius_m, coil.hole_tangential_m, leg,
                          coil.coil_thickness_m)
         if st.field_model == "fast":
-            return fieldmodel.coil_flux_linkage_harmonics(br, mag["recoil_permeability"], *geometry_args,
-                                                          self.orders, n_slices=st.n_slices,
-                                                          hole_radial_m=coil.hole_radial_m)
+            keystone = coil.coil_shape == 1
+            if np.all(keystone):
+                lam = np.empty((len(batch), len(self.orders)))
+            else:  # every row: rectangular results stay bit for bit what they were
+                lam = fieldmodel.coil_flux_linkage_harmonics(br, mag["recoil_permeability"], *geometry_args,
+                                                             self.orders, n_slices=st.n_slices,
+                                                             hole_radial_m=coil.hole_radial_m)
+            if np.any(keystone):
+                k = keystone
+                lam[k] = fieldmodel.keystone_flux_linkage_harmonics(
+                    br[k], mag["recoil_permeability"][k], mag["length_m"][k], mag["width_m"][k],
+                    mag["thickness_m"][k], coil.face_gap_m[k], pole_pairs[k], batch.ring_radius_m[k],
+                    coil.hole_radial_m[k], coil.hole_tangential_m[k], coil.side_angle_rad[k], leg[k],
+                    coil.coil_thickness_m[k], self.orders, n_slices=st.n_slices)
+            return lam
         if st.field_model == "reference":
             # The cuboid reference treats the magnets as rigid (mu_r = 1). Their recoil
             # permeability lowers the working point; scale Br by the magnetic-circuit ratio
@@ -657,7 +669,8 @@ class Evaluator:
             br = br * (h + g / 2.0) / (h + mag["recoil_permeability"] * g / 2.0)
             wave = fieldmodel.reference_coil_flux_linkage(br, *geometry_args,
                                                           hole_radial_m=coil.hole_radial_m,
-                                                          n_samples=st.n_samples)
+                                                          n_samples=st.n_samples,
+                                                          side_angle_rad=coil.side_angle_rad)
             # Project the reference waveform on the same odd cosine harmonics the EMF code expects.
             theta = 2.0 * np.pi * np.arange(st.n_samples) / st.n_samples
             basis = np.cos(self.orders[:, None] * theta[None, :])

@@ -107,3 +107,17 @@ def test_evaluator_gives_keystone_designs_their_own_coil(demo, batch):
     assert fits.sum() > 50
     assert np.all(key["coil_leg_width_m"][fits] > rect["coil_leg_width_m"][fits])
     assert np.all(key["coil_hole_radial_m"] == rect["coil_hole_radial_m"])
+
+
+def test_rectangular_rows_of_a_mixed_batch_are_bit_for_bit_the_rectangular_batch(demo, batch):
+    _, evaluator = demo
+    rect = evaluator.evaluate(batch)
+    shape = np.random.default_rng(3).integers(0, 2, len(batch))
+    mixed = evaluator.evaluate(DesignBatch.from_matrix(np.column_stack([batch.as_matrix()[:, :10], shape])))
+    r = shape == 0
+    for name, value in rect.values.items():
+        assert np.array_equal(np.asarray(mixed[name])[r], np.asarray(value)[r], equal_nan=True), name
+    assert np.array_equal(mixed.objectives[r], rect.objectives[r], equal_nan=True)
+    # keystone rows get the keystone field: their EMF differs from the rectangular coil's
+    k = (shape == 1) & (rect["coil_leg_width_m"] > 0)
+    assert np.all(mixed["emf_line_rms_per_rpm_V"][k] != rect["emf_line_rms_per_rpm_V"][k])

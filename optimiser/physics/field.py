@@ -9,6 +9,10 @@ Fast model (search): 2-D Fourier solution between two ideal iron planes (Parviai
 Pyrhonen 2004) applied in radial slices, plus a radial-end correction derived from the same layered
 solution with a radial wavenumber (see `_end_spill`).
 
+Keystone coils (`keystone_flux_linkage_harmonics`) take the same slice field over their own turn
+density: each turn's angular half-width on the slice's circle follows its slanted sides and rounded
+corners (`keystone_turn_angle`); the reference integrates over the same density in the plane.
+
 Reference model (tests, re-check of picked designs): closed-form field of uniformly magnetised
 cuboids (surface-charge model) with the two ideal iron discs replaced by an infinite stack of
 images, summed to a finite depth plus a smeared tail.
@@ -246,7 +250,8 @@ def _reduced_angles(n_samples):
 def reference_coil_flux_linkage(remanence_T, magnet_length_m, magnet_width_m, magnet_thickness_m,
                                 face_gap_m, pole_pairs, ring_radius_m, hole_tangential_m,
                                 leg_width_m, coil_thickness_m, hole_radial_m=None, n_samples=72,
-                                n_images=4, nodes_leg=5, nodes_hole=20, near_poles=4):
+                                n_images=4, nodes_leg=5, nodes_hole=20, near_poles=4,
+                                side_angle_rad=None):
     """Per-turn flux linkage waveform of one coil from the 3-D cuboid-plus-images field.
 
     Parameters
@@ -279,6 +284,10 @@ def reference_coil_flux_linkage(remanence_T, magnet_length_m, magnet_width_m, ma
     near_poles : int or None
         Blocks kept: those within this many pole pitches beyond the coil's outer edge (None: all).
         Far blocks of an alternating ring cancel; 4 changes the linkage by < 1e-4 relative [-].
+    side_angle_rad : array_like, shape (n,), optional
+        Keystone coils: the hole's long sides at this angle to the centre line (pi / Q), turns
+        wound round it with rounded corners (`geometry.coil_geometry`); 0 or None: rectangular
+        (square-cornered turns, as below) [rad].
 
     Returns
     -------
@@ -308,26 +317,32 @@ def reference_coil_flux_linkage(remanence_T, magnet_length_m, magnet_width_m, ma
         ring_radius_m, hole_tangential_m, leg_width_m, coil_thickness_m)])
     Br, L, W, h, g, p, Rm, Wh, w, tc = arrs
     Lh = L + (Wh - W) if hole_radial_m is None else np.broadcast_to(hole_radial_m, L.shape)
+    phi = np.zeros(L.shape) if side_angle_rad is None else np.broadcast_to(side_angle_rad, L.shape)
     t_red, inv, sign = _reduced_angles(n_samples)
     out = np.empty((L.size, n_samples))
     for i in range(L.size):
-        xe = [-Lh[i] / 2 - w[i], -Lh[i] / 2, Lh[i] / 2, Lh[i] / 2 + w[i]]
-        ye = [-Wh[i] / 2 - w[i], -Wh[i] / 2, Wh[i] / 2, Wh[i] / 2 + w[i]]
         clear = g[i] / 2 - tc[i] / 2
         nhx = max(nodes_hole, int(np.ceil(Lh[i] / (0.8 * clear))))
-        nhy = max(nodes_hole, int(np.ceil(Wh[i] / (0.8 * clear))))
-        xg, wx = _gauss_panels(xe, (nodes_leg, nhx, nodes_leg))
-        yg, wy = _gauss_panels(ye, (nodes_leg, nhy, nodes_leg))
-        X, Y = np.meshgrid(xg, yg, indexing="ij")
-        om = np.clip(1 - np.maximum(np.abs(X) - Lh[i] / 2, np.abs(Y) - Wh[i] / 2) / w[i], 0, 1)
-        wt = (wx[:, None] * wy[None, :] * om).ravel()
-        px = Rm[i] + X.ravel()
-        py = Y.ravel()
+        half_outer = Wh[i] / 2 + Lh[i] * np.tan(phi[i])
+        nhy = max(nodes_hole, int(np.ceil(2 * half_outer / (0.8 * clear))))
+        if phi[i] > 0:
+            px, py, wt = _keystone_plane_quadrature(Rm[i], Lh[i], Wh[i], phi[i], w[i], nodes_leg,
+                                                    nhx, nhy)
+        else:
+            xe = [-Lh[i] / 2 - w[i], -Lh[i] / 2, Lh[i] / 2, Lh[i] / 2 + w[i]]
+            ye = [-Wh[i] / 2 - w[i], -Wh[i] / 2, Wh[i] / 2, Wh[i] / 2 + w[i]]
+            xg, wx = _gauss_panels(xe, (nodes_leg, nhx, nodes_leg))
+            yg, wy = _gauss_panels(ye, (nodes_leg, nhy, nodes_leg))
+            X, Y = np.meshgrid(xg, yg, indexing="ij")
+            om = np.clip(1 - np.maximum(np.abs(X) - Lh[i] / 2, np.abs(Y) - Wh[i] / 2) / w[i], 0, 1)
+            wt = (wx[:, None] * wy[None, :] * om).ravel()
+            px = Rm[i] + X.ravel()
+            py = Y.ravel()
         zl, ql = _stack_levels(h[i], g[i], n_images)
         dz = (tc[i] / 2 - zl)[:, None, None]
         pp = int(p[i])
         acc = np.zeros((t_red.size, px.size))
-        span = None if near_poles is None else (Wh[i] / 2 + w[i]) / Rm[i] * pp / np.pi + near_poles
+        span = None if near_poles is None else (half_outer + w[i]) / Rm[i] * pp / np.pi + near_poles
         for j in _near_poles(pp, span):
             psi = t_red[:, None] / pp + j * np.pi / pp
             c, s = np.cos(psi), np.sin(psi)
@@ -342,6 +357,59 @@ def reference_coil_flux_linkage(remanence_T, magnet_length_m, magnet_width_m, ma
         lam = -(2 / tc[i]) * Br[i] / (4 * np.pi) * (acc @ wt)
         out[i] = sign * lam[inv]
     return out
+
+
+def _keystone_plane_quadrature(ring_radius_m, hole_radial_m, hole_tangential_m, side_angle_rad,
+                               leg_width_m, nodes_leg, nodes_x, nodes_y, nodes_arc=8):
+    """Points and weights of the turn density of a keystone coil over its plane (one coil).
+
+    The density of turns enclosing a point at distance d from the trapezoidal former is
+    omega = 1 - d / w (turns at depths d..w, uniform in depth). The plane splits into pieces on
+    which omega is smooth: the hole (omega = 1; Gauss on the bilinear map of the trapezoid), a
+    strip along each side (omega = 1 - sigma / w at distance sigma; Gauss along and across) and a
+    sector at each corner (omega = 1 - rho / w; polar Gauss). The weights sum to the mean turn's
+    area A_h + P_h w / 2 + pi w^2 / 3.
+
+    Returns
+    -------
+    x, y : ndarray
+        Points in the stator plane, coil centred on the x axis at the ring radius [m].
+    weight : ndarray
+        omega x area element [m^2].
+    """
+    Rm, Lh, Wh, phi, w = ring_radius_m, hole_radial_m, hole_tangential_m, side_angle_rad, leg_width_m
+    x_in, x_out = Rm - Lh / 2, Rm + Lh / 2
+    y_in, y_out = Wh / 2, Wh / 2 + Lh * np.tan(phi)
+    V = np.array([[x_in, -y_in], [x_out, -y_out], [x_out, y_out], [x_in, y_in]])  # anticlockwise
+    xs, ys, ws = [], [], []
+    # the hole: x = x_in + Lh a, y = (2 b - 1) Y(x), a, b in [0, 1]; Jacobian Lh 2 Y(x)
+    a, wa = _gauss_panels([0.0, 1.0], (nodes_x,))
+    b, wb = _gauss_panels([0.0, 1.0], (nodes_y,))
+    X = x_in + Lh * a
+    Y = y_in + (X - x_in) * np.tan(phi)
+    xs.append(np.repeat(X, b.size))
+    ys.append(((2 * b[None, :] - 1) * Y[:, None]).ravel())
+    ws.append((wa[:, None] * wb[None, :] * Lh * 2 * Y[:, None]).ravel())
+    sig, wsig = _gauss_panels([0.0, w], (nodes_leg,))
+    rho, wrho = sig, wsig
+    edge = np.roll(V, -1, axis=0) - V
+    length = np.hypot(edge[:, 0], edge[:, 1])
+    normal = np.stack([edge[:, 1], -edge[:, 0]], axis=1) / length[:, None]
+    out_angle = np.arctan2(normal[:, 1], normal[:, 0])
+    for k in range(4):
+        n_along = nodes_x if k in (1, 3) else nodes_y  # long sides are edges 1 and 3
+        tau, wtau = _gauss_panels([0.0, 1.0], (n_along,))
+        P = V[k] + tau[:, None, None] * edge[k] + sig[None, :, None] * normal[k]
+        xs.append(P[..., 0].ravel())
+        ys.append(P[..., 1].ravel())
+        ws.append((wtau[:, None] * wsig[None, :] * length[k] * (1 - sig / w)[None, :]).ravel())
+        start = out_angle[k - 1]
+        sweep = np.mod(out_angle[k] - start, 2 * np.pi)
+        alpha, walpha = _gauss_panels([start, start + sweep], (nodes_arc,))
+        xs.append((V[k, 0] + rho[:, None] * np.cos(alpha)[None, :]).ravel())
+        ys.append((V[k, 1] + rho[:, None] * np.sin(alpha)[None, :]).ravel())
+        ws.append((wrho[:, None] * walpha[None, :] * (rho * (1 - rho / w))[:, None]).ravel())
+    return np.concatenate(xs), np.concatenate(ys), np.concatenate(ws)
 
 
 # --------------------------------------------------------------------------------------------
@@ -552,16 +620,21 @@ def _end_decay_rate(u, h, delta, mu, t):
     return np.sqrt(2 * u / np.maximum(-dlnF, 1e-30))
 
 
-def _end_spill(u, beta, a0, w, c_h, L, u1, H):
-    """Mean over s in [0, w] of sin(u (a0 + s)) * spill(c_h + s) [m], where
+def _end_spill(u, beta, a0, w, c_h, L, u1, H, rate=None):
+    """Mean over s in [0, w] of sin(u (a0 + k s)) * spill(c_h + s) [m] (k = `rate`, 1 when None:
+    the turn's half-width grows as its depth), where
     spill(c) = (exp(-beta c) - exp(-beta (c + L))) / beta is the flux (in units of B x length)
     of the radially spread field that falls beyond a turn overhanging the block ends by c, summed
     over both ends (each end: int_c^inf (zeta - c) K dzeta, minus the part already missing at the
     far end). u = n u1 on the last axis (H odd orders).
 
-    Im[exp(j u a0 - beta c_h) (exp(z w) - 1) / (z w)], z = j u - beta, in real arithmetic."""
+    Im[exp(j u a0 - beta c_h) (exp(z w) - 1) / (z w)], z = j u k - beta, in real arithmetic."""
     ca, sa = (c.T for c in _odd_multiples((u1 * a0)[..., 0], H))
-    cw, sw = (c.T for c in _odd_multiples((u1 * w)[..., 0], H))
+    if rate is not None:  # keystone ends (the rectangular coil's arithmetic stays as it was)
+        u = u * rate
+        cw, sw = (c.T for c in _odd_multiples((u1 * rate * w)[..., 0], H))
+    else:
+        cw, sw = (c.T for c in _odd_multiples((u1 * w)[..., 0], H))
     E = np.exp(-beta * w)
     nr, ni = E * cw - 1, E * sw  # exp(z w) - 1
     den = (beta * beta + u * u) * w
@@ -766,3 +839,172 @@ def rotor_field_summary(remanence_T, recoil_permeability, magnet_length_m, magne
     phi = _flux_per_pole(coefficients, remanence_T, recoil_permeability, magnet_width_m,
                          magnet_thickness_m, face_gap_m, pole_pairs, orders, "iron")
     return (_force(r, wr, Bn), phi) + _gap_field_rms(coefficients, coil_thickness_m)
+
+
+# --------------------------------------------------------------------------------------------
+# Keystone coils (physics/geometry.py): the fast model over the keystone's turn density
+# --------------------------------------------------------------------------------------------
+
+
+def keystone_turn_angle(radius_m, depth_m, ring_radius_m, hole_radial_m, hole_tangential_m,
+                        side_angle_rad):
+    """Angular half-width of a keystone turn where it crosses the circle of radius r [rad].
+
+    Parameters
+    ----------
+    radius_m : array_like
+        Radius r of the circle, between the hole's inner and outer ends [m].
+    depth_m : array_like
+        Distance s of the turn from the former (0 at the hole, the leg width at the outside) [m].
+    ring_radius_m, hole_radial_m, hole_tangential_m : array_like
+        Coil centre radius R_m, hole length L_h and the hole's width W_h at its inner end [m].
+    side_angle_rad : array_like
+        phi = pi / Q, the long sides' angle to the centre line [rad].
+
+    Returns
+    -------
+    theta : ndarray
+        Largest polar angle of the turn on that circle (the turn spans -theta..theta) [rad].
+
+    Notes
+    -----
+    The turn is the set of points at distance s from the trapezoid (`geometry.coil_geometry`):
+    the union of the trapezoid, the strip of width s along each side and a disc of radius s at
+    each corner. The circle leaves the union at the largest of the angles at which it leaves each
+    piece (they overlap in a chain from the hole's interior): the long side's strip, where the
+    circle is e - s from the bisector (theta = phi - arcsin((e - s) / r), e = x_i sin(phi) -
+    (W_h/2) cos(phi)), when that point lies along the side; the inner end's strip (x_i - s <= x
+    <= x_i, |y| <= W_h/2); the discs at the inner and outer corners (rho_c, gamma_c): theta =
+    gamma_c + arccos((r^2 + rho_c^2 - s^2) / (2 r rho_c)). Plane geometry, derived here.
+    """
+    r, s = np.asarray(radius_m, dtype=float), np.asarray(depth_m, dtype=float)
+    Rm, Lh, Wh, phi = (np.asarray(a, dtype=float) for a in (ring_radius_m, hole_radial_m,
+                                                            hole_tangential_m, side_angle_rad))
+    x_in, x_out = Rm - Lh / 2, Rm + Lh / 2
+    y_in = Wh / 2
+    y_out = y_in + Lh * np.tan(phi)
+    sp, cp = np.sin(phi), np.cos(phi)
+    e = x_in * sp - y_in * cp
+    t_in, t_out = x_in * cp + y_in * sp, x_out * cp + y_out * sp
+    none = -np.inf
+    d = e - s
+    foot = np.sqrt(np.maximum(r * r - d * d, 0.0))
+    side = np.where((foot >= t_in) & (foot <= t_out), phi - np.arcsin(np.clip(d / r, -1, 1)), none)
+    # inner end strip: leaves through its top edge y = y_in, or through its far edge x = x_in - s
+    x_top = np.sqrt(np.maximum(r * r - y_in * y_in, 0.0))
+    top = np.where((x_top >= x_in - s) & (x_top <= x_in) & (r >= y_in),
+                   np.arcsin(np.clip(y_in / r, -1, 1)), none)
+    x_far = x_in - s
+    y_far = np.sqrt(np.maximum(r * r - x_far * x_far, 0.0))
+    far = np.where((r >= x_far) & (y_far <= y_in), np.arccos(np.clip(x_far / r, -1, 1)), none)
+    theta = np.maximum(side, np.maximum(top, far))
+    for xc, yc in ((x_in, y_in), (x_out, y_out)):
+        rho, gamma = np.hypot(xc, yc), np.arctan2(yc, xc)
+        arg = (r * r + rho * rho - s * s) / (2 * r * rho)
+        theta = np.maximum(theta, np.where(arg <= 1.0, gamma + np.arccos(np.clip(arg, -1, 1)), none))
+    return theta
+
+
+def keystone_flux_linkage_harmonics(remanence_T, recoil_permeability, magnet_length_m,
+                                    magnet_width_m, magnet_thickness_m, face_gap_m, pole_pairs,
+                                    ring_radius_m, hole_radial_m, hole_tangential_m, side_angle_rad,
+                                    leg_width_m, coil_thickness_m, orders, n_slices=5, n_depths=4,
+                                    end_correction=True):
+    """Peak per-turn flux linkage of each harmonic for a keystone coil centred on a pole.
+
+    Parameters
+    ----------
+    remanence_T, recoil_permeability, magnet_length_m, magnet_width_m, magnet_thickness_m,
+    face_gap_m, pole_pairs, ring_radius_m : array_like, shape (n,)
+        As in `coil_flux_linkage_harmonics` [T, -, m, m, m, m, -, m].
+    hole_radial_m, hole_tangential_m : array_like, shape (n,)
+        Hole length L_h and its width W_h at the inner end [m].
+    side_angle_rad : array_like, shape (n,)
+        phi = pi / Q, the hole's long sides to the centre line [rad].
+    leg_width_m, coil_thickness_m : array_like, shape (n,)
+        Leg width w (turns spread uniformly over depths 0..w) and axial thickness t_c [m].
+    orders : array_like, shape (H,)
+        Odd harmonic orders [-].
+    n_slices : int
+        Gauss-Legendre radial slices over the magnet length [-].
+    n_depths : int
+        Linear pieces of the turn's angle against its depth (see Notes) [-].
+    end_correction : bool
+        Subtract the flux that fringes radially past each turn at the magnet ends [-].
+
+    Returns
+    -------
+    Lambda_n : ndarray, shape (n, H)
+        lambda(theta_e) = sum_n Lambda_n cos(n theta_e), mean over the turns [Wb].
+
+    Notes
+    -----
+    The slice field is the rectangular coil's (`coil_flux_linkage_harmonics`): in a slice of
+    radius r, harmonic n of B_z is B_n(r) cosh(u z) cos(n p psi) (psi the mechanical angle), so a
+    turn spanning -theta..theta links (2 B_n / u) sin(n p theta) r-lengths of arc, and the
+    thickness mean gives sinh(u t_c/2) / (u t_c/2). A keystone turn's theta(r, s) follows its
+    sides and corners (`keystone_turn_angle`), so the mean over the turn density (s uniform on
+    0..w) is taken on `n_depths` pieces in s, theta linear on each: on a piece,
+    mean sin(n p theta) = (cos(n p theta_k) - cos(n p theta_k+1)) / (n p (theta_k+1 - theta_k)),
+    exact for any harmonic where theta is linear in s (it is to within the arcsine's curvature
+    along the sides). The radial ends take the rectangular model's spill (`_end_spill`) at each
+    end with that end's half-width and its growth with s, averaged over the two ends.
+
+    References
+    ----------
+    Parviainen, Niemela & Pyrhonen 2004 (see `fourier_coefficients`) for the slice method; the
+    turn's shape and the piecewise integral are derived here. Checked against the 3-D reference
+    over the keystone's turn density (`reference_coil_flux_linkage`) and against magpylib
+    (tests/test_keystone_field.py).
+    """
+    args = (remanence_T, recoil_permeability, magnet_length_m, magnet_width_m, magnet_thickness_m,
+            face_gap_m, pole_pairs, ring_radius_m, hole_radial_m, hole_tangential_m, side_angle_rad,
+            leg_width_m, coil_thickness_m)
+    if all(np.ndim(a) == 0 for a in args):
+        return keystone_flux_linkage_harmonics(*[np.atleast_1d(a) for a in args], orders, n_slices,
+                                               n_depths, end_correction)[0]
+    (remanence_T, recoil_permeability, magnet_length_m, magnet_width_m, magnet_thickness_m,
+     face_gap_m, pole_pairs, ring_radius_m, hole_radial_m, hole_tangential_m, side_angle_rad,
+     leg_width_m, coil_thickness_m) = np.broadcast_arrays(*[np.asarray(a, dtype=float) for a in args])
+    n = np.asarray(orders, dtype=float)
+    H = n.size
+    f = lambda a: np.asarray(a, dtype=float)[..., None]  # noqa: E731  (N, 1)
+    Br, mu, L, W, h = f(remanence_T), f(recoil_permeability), f(magnet_length_m), \
+        f(magnet_width_m), f(magnet_thickness_m)
+    d, p, Rm = f(face_gap_m) / 2, f(pole_pairs), f(ring_radius_m)
+    Lh, Wh, phi, w, t = f(hole_radial_m), f(hole_tangential_m), f(side_angle_rad), f(leg_width_m), \
+        f(coil_thickness_m)
+    r, wr = _slices(ring_radius_m, magnet_length_m, n_slices)  # (N, S)
+    depth = w[..., None] * np.linspace(0.0, 1.0, n_depths + 1)  # (N, 1, K+1)
+    geo = [a[..., None] for a in (Rm, Lh, Wh, phi)]
+    theta = keystone_turn_angle(r[..., None], depth, *geo)  # (N, S, K+1)
+    C = _odd_multiples(p[..., None] * theta, H)[0]  # cos(n p theta), (H, N, S, K+1)
+    nn = n[:, None, None]
+    step = nn[..., None] * (p[..., None] * np.diff(theta, axis=-1))  # n p (theta_k+1 - theta_k)
+    mean_sin = np.mean((C[..., :-1] - C[..., 1:]) / step, axis=-1)  # (H, N, S)
+    u1 = p / r
+    s_a = _odd_multiples(0.5 * p * W / r, H)[1]
+    u = nn * u1
+    ed = np.exp(-2 * u * d)
+    th, td = -np.expm1(-2 * u * h), -np.expm1(-2 * u * d)
+    th, td = th / (2 - th), td / (2 - td)
+    x = u * (t / 2)
+    sx = (np.exp(x - u * d) - np.exp(-x - u * d)) / ((1 + ed) * x)
+    amp = (4 / np.pi) * Br / nn * s_a * th / (th + mu * td) * sx
+    lam = np.einsum("...s,h...s->...h", wr, amp * (2 / u) * mean_sin)
+    if not end_correction:
+        return lam
+    c_h = (Lh - L) / 2
+    u0 = n * p / Rm  # (N, H)
+    B0 = fourier_coefficients(Br[..., 0], mu[..., 0], h[..., 0], W[..., 0], 2 * d[..., 0],
+                              p[..., 0], Rm[..., 0], n)
+    x0 = u0 * t / 2
+    beta = _end_decay_rate(u0, h, d, mu, t)
+    spill = 0.0
+    for r_end in (Rm - L / 2, Rm + L / 2):
+        th_end = keystone_turn_angle(r_end, np.concatenate([0 * w, w], axis=-1), Rm, Lh, Wh, phi)
+        a0 = Rm * th_end[..., :1]  # the end's half-width and its growth, as angles times R_m
+        rate = Rm * (th_end[..., 1:] - th_end[..., :1]) / w
+        spill = spill + 0.5 * _end_spill(u0, beta, a0, w, c_h, L, p / Rm, H, rate)
+    x0 = np.minimum(x0, 700.0)
+    return lam - 2 * B0 / u0 * np.sinh(x0) / x0 * spill
