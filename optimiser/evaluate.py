@@ -442,6 +442,13 @@ class Evaluator:
                                             geo.leg, coil.coil_thickness_m,
                                             coil.face_gap_m + 2.0 * mag["thickness_m"],
                                             n_images=st.inductance_images)
+        keystone = coil.coil_shape == 1
+        if np.any(keystone):
+            k = keystone
+            l_coil[k] = electrical.keystone_coil_inductance(
+                batch.turns[k], coil.hole_perimeter_m[k], coil.hole_area_m2[k], geo.leg[k],
+                coil.coil_thickness_m[k], coil.face_gap_m[k] + 2.0 * mag["thickness_m"][k],
+                n_images=st.inductance_images)
         l_phase = electrical.phase_inductance(l_coil, series, geo.paths)
         active_copper_m3 = (geo.coils * 2.0 * batch.turns * batch.strands * mag["length_m"]
                             * np.pi * geo.wire["bare_diameter_m"] ** 2 / 4.0)
