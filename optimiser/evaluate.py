@@ -452,6 +452,9 @@ class Evaluator:
         l_phase = electrical.phase_inductance(l_coil, series, geo.paths)
         active_copper_m3 = (geo.coils * 2.0 * batch.turns * batch.strands * mag["length_m"]
                             * np.pi * geo.wire["bare_diameter_m"] ** 2 / 4.0)
+        if np.any(keystone):  # the keystone's legs cross the field on slanted sides, 2 L / cos(pi/Q)
+            active_copper_m3[k] = (geo.coils[k] * batch.turns[k] * batch.strands[k] * coil.active_length_m[k]
+                                   * np.pi * geo.wire["bare_diameter_m"][k] ** 2 / 4.0)
         return FieldEMF(e_unit, whole_period, e_star_unit, spreads, e_zero_ms_unit, delta,
                         line_peak_per_rpm_per_T, line_rms_per_rpm_per_T, bz_sq + bx_sq, phi_unit,
                         force_unit, r20, l_phase, active_copper_m3)

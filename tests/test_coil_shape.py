@@ -121,3 +121,23 @@ def test_rectangular_rows_of_a_mixed_batch_are_bit_for_bit_the_rectangular_batch
     # keystone rows get the keystone field: their EMF differs from the rectangular coil's
     k = (shape == 1) & (rect["coil_leg_width_m"] > 0)
     assert np.all(mixed["emf_line_rms_per_rpm_V"][k] != rect["emf_line_rms_per_rpm_V"][k])
+
+
+def test_keystone_wire_copper_and_eddy_loss_use_the_keystone_lengths(demo, batch):
+    # Wire length = Q N n_s (P_h + pi w) (the mean turn, checked against traced turns in
+    # test_geometry.py); copper mass = length x pi d^2/4 x 8890 kg/m^3 (IEC 60028 density); the
+    # strand eddy loss scales with the conductor length in the field, 2 L / cos(pi/Q) a turn.
+    _, evaluator = demo
+    key = DesignBatch.from_matrix(np.column_stack([batch.as_matrix()[:, :10], np.ones(len(batch))]))
+    ev = evaluator.evaluate(key, rpm=200.0)
+    geo = evaluator._geometry(key)
+    coil = geo.coil
+    ok = coil.leg_width_m > 1e-4  # narrower legs are floored for the physics (infeasible anyway)
+    turn = coil.hole_perimeter_m + np.pi * coil.leg_width_m
+    assert np.allclose(ev["mean_turn_length_m"][ok], turn[ok], rtol=1e-12)
+    assert np.allclose(ev["wire_length_m"][ok], (geo.coils * key.turns * key.strands * turn)[ok], rtol=1e-12)
+    d = geo.wire["bare_diameter_m"]
+    assert np.allclose(ev["copper_mass_kg"], ev["wire_length_m"] * np.pi * d ** 2 / 4 * 8890.0, rtol=1e-12)
+    fem = evaluator._field_and_emf(key, geo)
+    rect_length = geo.coils * 2.0 * key.turns * key.strands * geo.mag["length_m"] * np.pi * d ** 2 / 4
+    assert np.allclose(fem.active_copper_m3 / rect_length, 1 / np.cos(np.pi / geo.coils), rtol=1e-12)
