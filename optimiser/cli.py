@@ -25,7 +25,7 @@ from .catalogs import catalog_summary, load_catalogs
 from .design import load_design
 from .errors import InputError, Problem
 from .evaluate import Evaluator, Settings
-from .report.evaluation import design_report, rpm_table
+from .report.evaluation import ROBUST_HEADERS as robust_headers, design_report, robust_note, robust_rows, rpm_table
 from .report.front_data import plural
 from .scenario import FIELDS, load_scenario, write_template
 from .search import parallel as _parallel
@@ -249,6 +249,14 @@ def _print_report(report, rows, currency=""):
                          f"{r['drag_force_N']:.0f}", f"{r['added_drag_N']:.0f}",
                          "runaway" if r.get("thermal_runaway") else f"{r['coil_temperature_C']:.0f}")
         console.print(boat)
+    if "robust" in report:
+        band = Table(title="What to expect from your build")
+        for j, col in enumerate(robust_headers):
+            band.add_column(col, justify="left" if j == 0 else "right")
+        for row in robust_rows(report, currency):
+            band.add_row(*map(rich_escape, row))  # '[rpm]' is not markup
+        console.print(band)
+        console.print(robust_note(report))
     status = "[green]fits and meets every limit[/green]" if report["feasible"] else "[red]does not work:[/red]"
     console.print(status)
     for p in report["problems"]:

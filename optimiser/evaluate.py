@@ -21,11 +21,14 @@ from .design import DesignBatch
 from .operating import PropellerTable, loaded_operating_point, sailing_profile
 from .physics import electrical, emf, field as fieldmodel, geometry, losses, rectifier, thermal, thermal_reference
 from .physics.winding import WindingError, star_of_slots
+from . import robust
 
 OBJECTIVES = ("charge_current_A", "drag_torque_Nm", "magnet_cost", "coil_temperature_C")
 """The default objectives (a scenario may choose others, `Evaluator.objectives`)."""
 OBJECTIVE_SENSE = {"charge_current_A": -1.0, "drag_torque_Nm": 1.0, "magnet_cost": 1.0,
-                   "coil_temperature_C": 1.0, "amp_hours_per_day": -1.0, "mean_added_drag_N": 1.0}
+                   "coil_temperature_C": 1.0, "amp_hours_per_day": -1.0, "mean_added_drag_N": 1.0,
+                   "charge_current_A_p10": -1.0, "drag_torque_Nm_p90": 1.0, "coil_temperature_C_p90": 1.0,
+                   "amp_hours_per_day_p10": -1.0, "mean_added_drag_N_p90": 1.0}
 """Multiply a value by its sense to get the minimisation form (charge is maximised)."""
 OBJECTIVE_SIGN = np.array([OBJECTIVE_SENSE[name] for name in OBJECTIVES])
 
@@ -273,6 +276,8 @@ class Evaluator:
             else:
                 ev.at_fastest = self._at_speed(batch, self.scenario.fastest_sailing_rpm, stages).values
             self._connected_limits(ev)
+            if self.scenario.robust_samples > 0 and not isinstance(batch, robust.BuiltBatch):
+                self._add_robust(batch, ev)
         # Profile objectives exist only for the sailing evaluation (no `rpm` given): NaN otherwise.
         missing = np.full(len(batch), np.nan)
         ev.objectives = np.column_stack([ev.values.get(name, missing) for name in self.objectives])
@@ -291,6 +296,23 @@ class Evaluator:
             (v["coil_temperature_connected_C"] - v["coil_limit_C"]) / 100.0)
         ev.constraints[:, names.index("magnet_too_hot")] = (
             (v["magnet_temperature_connected_C"] - v["magnet_limit_C"]) / 100.0)
+
+    def _add_robust(self, batch, ev):
+        """Build tolerances (robust.py): p10 / p50 / p90 of each design over the scenario's
+        robust_samples builds, one evaluation of the (designs x samples) batch; with
+        robust_constraints the coil and magnet limits hold for the p90 build."""
+        ev.values.update(robust.robust_values(self, batch, self.scenario.robust_samples))
+        if self.scenario.robust_constraints:
+            v, names = ev.values, list(CONSTRAINTS)
+            ev.constraints[:, names.index("coil_too_hot")] = (
+                (v["coil_temperature_connected_C_p90"] - v["coil_limit_C"]) / 100.0)
+            ev.constraints[:, names.index("magnet_too_hot")] = (
+                (v["magnet_temperature_connected_C_p90"] - v["magnet_limit_C"]) / 100.0)
+
+    def _scenario_for(self, batch):
+        """The scenario as the rows of `batch` see it: the scenario itself, or for a batch of
+        sampled builds (robust.BuiltBatch) the scenario with its sampled keys as per-row arrays."""
+        return batch.scenario if isinstance(batch, robust.BuiltBatch) else self.scenario
 
     def _add_profile(self, batch, ev):
         """Loaded operating point at each profile speed: where the generator's drag torque meets the
@@ -347,8 +369,10 @@ class Evaluator:
 
     def _geometry(self, batch: DesignBatch) -> "Geometry":
         """Stage 1: catalog lookups, winding lookup, coil geometry, fit margins, wire lengths."""
-        sc = self.scenario
+        sc = self._scenario_for(batch)
         mag = {k: v[batch.magnet] for k, v in self.magnet.items()}
+        if isinstance(batch, robust.BuiltBatch):  # a sampled build's magnets
+            mag["remanence_T"] = mag["remanence_T"] * batch.build.remanence_factor
         wire = {k: v[batch.wire] for k, v in self.wire.items()}
         disc = {k: v[batch.disc] for k, v in self.disc.items()}
         coils = self.layout["coils_per_unit"][batch.layout] * batch.multiple
@@ -468,7 +492,7 @@ class Evaluator:
         the first held; from then on the root is bracketed (g(T) > T: it lies above T) and found by
         the Illinois variant of regula falsi, bisecting whenever a step would leave the bracket.
         """
-        sc, st = self.scenario, self.settings
+        sc, st = self._scenario_for(batch), self.settings
         coil = geo.coil
         ring_outer = batch.ring_radius_m + coil.hole_radial_m / 2.0 + geo.leg
 
@@ -503,11 +527,11 @@ class Evaluator:
     def _fixed_point(self, batch, geo, fem, rpm, omega_e, f_e, thermal_at):
         """The fixed point of `_electro_thermal` for one thermal model: `thermal_at(T)` gives the
         coil-to-air resistance [K/W] and the magnet temperature [C] at coil temperature T."""
-        sc, st = self.scenario, self.settings
+        sc, st = self._scenario_for(batch), self.settings
         n = len(batch)
         mag, delta = geo.mag, fem.delta
         alpha = electrical.COPPER_TEMP_COEFF_20C
-        lo, hi = np.full(n, float(sc.bilge_air_C)), np.full(n, RUNAWAY_C)
+        lo, hi = np.broadcast_to(np.asarray(sc.bilge_air_C, float), (n,)).copy(), np.full(n, RUNAWAY_C)
         h_lo, h_hi = np.full(n, np.nan), np.zeros(n)
         side = np.zeros(n)
         t_coil = hi.copy()
@@ -584,7 +608,7 @@ class Evaluator:
                  rpm) -> Evaluation:
         """Stage 4: windage and bearing loss, shaft power and torque, cut-in, back iron, costs,
         constraints and every reported value."""
-        sc = self.scenario
+        sc = self._scenario_for(batch)
         n = len(batch)
         mag, wire, disc, coil, built = geo.mag, geo.wire, geo.disc, geo.coil, geo.built
         bridge, br, omega = hot.bridge, hot.br, hot.omega

@@ -44,8 +44,12 @@ class Field:
 
 _MM = 1e-3
 OBJECTIVE_NAMES = ("charge_current_A", "drag_torque_Nm", "magnet_cost", "coil_temperature_C",
-                   "amp_hours_per_day", "mean_added_drag_N")
-"""Objectives a scenario may ask the search for; the first four are the default."""
+                   "amp_hours_per_day", "mean_added_drag_N", "charge_current_A_p10",
+                   "drag_torque_Nm_p90", "coil_temperature_C_p90", "amp_hours_per_day_p10",
+                   "mean_added_drag_N_p90")
+"""Objectives a scenario may ask the search for; the first four are the default. The `_p10`/`_p90`
+ones are the build-spread values (robust.py) and need `robust_samples` > 0."""
+ROBUST_OBJECTIVES = OBJECTIVE_NAMES[6:]
 FIELDS: tuple[Field, ...] = (
     Field("name", str, "Kittiwake", None, None, "label printed on the build sheet; demo boat: "
           "fictional 10 m sloop", "boat"),
@@ -116,6 +120,31 @@ FIELDS: tuple[Field, ...] = (
     Field("objectives", tuple, OBJECTIVE_NAMES[:4], None, None, "what the search trades off; "
           "also amp_hours_per_day and mean_added_drag_N when a propeller is given", "search",
           item=str, choices=OBJECTIVE_NAMES),
+    Field("spread_remanence_pct", float, 1.5, 0, 20, "magnet Br within +-1.5 % of its "
+          "grade's typical value: sintered NdFeB grade tables give a Br window of about that "
+          "width (e.g. N42 1.28-1.32 T; common practice, from memory)", "tolerances"),
+    Field("spread_fill_factor_pct", float, 10.0, 0, 50, "hand-wound coil fill factor within "
+          "+-10 % of coil_fill_factor (so the coil's thickness within about +-10 %): tension, "
+          "crossovers and resin between the layers vary from coil to coil (common practice; never "
+          "taken above a fill of 1)", "tolerances"),
+    Field("spread_running_clearance_mm", float, 0.5, 0, 10, "running clearance within "
+          "+-0.5 mm of running_clearance_mm: disc run-out, shim stack and bearing float of a "
+          "workshop assembly (common practice, from memory); less than running_clearance_mm",
+          "tolerances", scale=_MM),
+    Field("spread_bilge_air_C", float, 5.0, 0, 40, "bilge air within +-5 K of bilge_air_C: "
+          "day to day and season to season, engine recently run or not (estimate)", "tolerances"),
+    Field("spread_resin_conductivity_pct", float, 20.0, 0, 90, "resin conductivity within "
+          "+-20 %: mixing ratio, trapped air and filler settling change it, and it sets most of "
+          "the coil's thermal resistance (conduction through the winding and the skin), so after "
+          "the bilge air it moves the coil temperature most (estimate)", "tolerances"),
+    Field("robust_samples", int, 0, 0, 1024, "0: the search evaluates the nominal build only (as "
+          "fast as without tolerances). n > 0: every design also at n fixed low-discrepancy "
+          "samples of the spreads above (n + 1 times the work; 16 gives usable p10/p90) for the "
+          "_p10/_p90 values, objectives and robust_constraints. Reports always show the band "
+          "(with 16 samples when this is 0)", "tolerances"),
+    Field("robust_constraints", bool, False, None, None, "false: the coil and magnet limits "
+          "hold for the nominal build; true: for the p90 build (needs robust_samples > 0)",
+          "tolerances"),
     Field("propeller_diameter_mm", float, 0.0, 0, 3000, "0: no propeller model, the shaft turns "
           "at sailing_rpm; give the propeller to find the loaded rpm at each boat speed",
           "propeller", scale=_MM),
@@ -151,6 +180,7 @@ _BY_KEY = {f.key: f for f in FIELDS}
 _GROUP_TITLES = {"boat": "Boat", "battery": "Battery bank and rectifier", "shaft": "Shaft",
                  "space": "Space and clearances", "coils": "Coils and casting",
                  "limits": "Limits", "search": "What the search may choose",
+                 "tolerances": "Build tolerances: what a workshop cannot hold exactly",
                  "propeller": "Propeller and sailing profile (optional)"}
 
 
@@ -191,6 +221,13 @@ class Scenario:
     ring_radius_step_m: float
     wire_margin: float
     objectives: tuple
+    spread_remanence_pct: float
+    spread_fill_factor_pct: float
+    spread_running_clearance_m: float
+    spread_bilge_air_C: float
+    spread_resin_conductivity_pct: float
+    robust_samples: int
+    robust_constraints: bool
     propeller_diameter_m: float
     propeller_pitch_m: float
     propeller_blades: int
@@ -335,6 +372,8 @@ def _check(f: Field, value) -> str | None:
     if f.kind is str:
         return None if isinstance(value, str) and value.strip() else \
             f"must be a non-empty text in quotes (got {value!r})"
+    if f.kind is bool:
+        return None if isinstance(value, bool) else f"must be true or false (got {value!r})"
     ok = isinstance(value, int) if f.kind is int else isinstance(value, (int, float))
     if isinstance(value, bool) or not ok:
         what = "a whole number" if f.kind is int else "a number"
@@ -412,9 +451,17 @@ def _cross_checks(v: dict, in_file) -> list[tuple[str, str]]:
     elif given and v["propeller_diameter_mm"] <= 0:
         out.append((given[0], "fits shaft_line_friction_Nm with the propeller model: set "
                               "propeller_diameter_mm (and its pitch and blades)"))
-    needs = [o for o in v["objectives"] if o in ("amp_hours_per_day", "mean_added_drag_N")]
+    needs = [o for o in v["objectives"] if o.startswith(("amp_hours_per_day", "mean_added_drag_N"))]
     if needs and v["propeller_diameter_mm"] <= 0:
         out.append(("objectives", f"{needs[0]} needs a propeller: set propeller_diameter_mm"))
+    robust = [o for o in v["objectives"] if o in ROBUST_OBJECTIVES]
+    if robust and v["robust_samples"] <= 0:
+        out.append(("objectives", f"{robust[0]} is a build-spread value: set robust_samples "
+                                  "(16 is a good start)"))
+    elif v["robust_constraints"] and v["robust_samples"] <= 0:
+        out.append(("robust_constraints", "needs robust_samples > 0 (16 is a good start)"))
+    if v["spread_running_clearance_mm"] > 0:
+        order("spread_running_clearance_mm", "running_clearance_mm", strict=True)
     if len(v["objectives"]) < 2:
         out.append(("objectives", "a Pareto search needs at least two objectives"))
     fixed = 2 * v["running_clearance_mm"] + 2 * v["resin_skin_mm"]
@@ -447,6 +494,8 @@ def _value_text(f: Field, value) -> str:
         return "[" + ", ".join(f'"{v}"' if f.item is str else _float_text(v) for v in value) + "]"
     if f.kind is str:
         return f'"{value}"'
+    if f.kind is bool:
+        return "true" if value else "false"
     return f"{value:g}" if f.kind is int else _float_text(value)
 
 

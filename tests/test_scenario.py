@@ -46,7 +46,12 @@ def test_scenario_has_the_spec_attributes():
                                             "measured_free_wheel_rpm", "measured_free_wheel_boat_speed_kn",
                                             "shaft_line_friction_fitted",
                                             # radiation from the surfaces (issue 13)
-                                            "surface_emissivity"}
+                                            "surface_emissivity",
+                                            # build tolerances (issue 14)
+                                            "spread_remanence_pct", "spread_fill_factor_pct",
+                                            "spread_running_clearance_m", "spread_bilge_air_C",
+                                            "spread_resin_conductivity_pct", "robust_samples",
+                                            "robust_constraints"}
 
 
 def test_demo_is_kittiwake_in_si():

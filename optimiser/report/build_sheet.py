@@ -19,7 +19,7 @@ import numpy as np
 from ..design import design_toml
 from ..evaluate import RUNAWAY_C, STATOR_RIM_M, Evaluator, Settings
 from ..physics.winding import winding_table
-from ..report.evaluation import design_report, rpm_table
+from ..report.evaluation import ROBUST_HEADERS, design_report, robust_note, robust_rows, rpm_table
 from ..safe_io import RunLock, write_atomic
 from . import drawing
 from .front_data import (ALIASES, DEG_C, column_factor, column_label, column_name, column_sense, format_value, load_front,
@@ -383,6 +383,10 @@ def build_sheet(run, design_id, choice: Choice | None = None) -> Sheet:
                   f"{rep['mean_added_drag_N']:.0f} N. The shaft settles where the generator's drag torque "
                   "meets the torque the propeller takes from the water."),
             ("table", boat)]))
+
+    sections.append(Section("What to expect from your build", [
+        ("p", "No workshop builds exactly what is drawn. " + robust_note(rep)),
+        ("table", Table(list(ROBUST_HEADERS), robust_rows(rep, sc.currency), "lrrrr", key="build_band"))]))
 
     recheck, ref = _recheck(run, one, s, rep)
     cap_notes = _recheck_limits(run, ref, choice) if choice is not None else []

@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from .. import robust
 from ..design import CONNECTIONS, DesignBatch
 from ..evaluate import CONSTRAINTS, ELV_LIMIT_AC_RMS_V, Evaluator
 from ..strict_json import finite_or_none  # noqa: F401  (kept importable from here)
@@ -156,11 +157,91 @@ def design_report(evaluator: Evaluator, design: DesignBatch, rows=()) -> dict:
         "warnings": warnings,
     }
     warnings[-1:-1] = connected_range_warnings(report, rows)  # before the rotor-force note
+    report["robust"] = robust_block(evaluator, design, sail)
+    warnings[-1:-1] = robust_warnings(report)
     if sail.profile:
         report["sailing_profile"] = profile_rows(sc, sail.profile)
         report["amp_hours_per_day"] = v("amp_hours_per_day")
         report["mean_added_drag_N"] = v("mean_added_drag_N")
     return report
+
+
+ROBUST_REPORT_VALUES = ("charge_current_A", "drag_torque_Nm", "coil_temperature_C",
+                        "coil_temperature_connected_C", "magnet_temperature_connected_C", "cut_in_rpm",
+                        "amp_hours_per_day", "mean_added_drag_N")
+"""Values of the `robust` block of `afpm evaluate --json` (the last two with a propeller)."""
+
+
+def robust_block(evaluator: Evaluator, design: DesignBatch, sail=None) -> dict:
+    """What to expect from a real build of one design (a batch of one): p10 / p50 / p90 of each
+    value over sampled builds (robust.py: each spread uniform within +- its half-width). Uses the
+    scenario's robust_samples, or robust.REPORT_SAMPLES when that is 0 (the search then saw the
+    nominal build only)."""
+    sc = evaluator.scenario
+    n = sc.robust_samples if sc.robust_samples > 0 else robust.REPORT_SAMPLES
+    if sc.robust_samples > 0 and sail is not None:
+        values = sail.values
+    else:
+        values = robust.robust_values(evaluator, design, n)
+    out = {"samples": int(n), "distribution": "each spread uniform within +- its half-width "
+           "(scrambled Sobol, fixed seed)",
+           "spreads": {"remanence_pct": sc.spread_remanence_pct, "fill_factor_pct": sc.spread_fill_factor_pct,
+                       "running_clearance_mm": sc.spread_running_clearance_m * 1e3,
+                       "bilge_air_C": sc.spread_bilge_air_C,
+                       "resin_conductivity_pct": sc.spread_resin_conductivity_pct},
+           "robust_constraints": bool(sc.robust_constraints)}
+    for name in ROBUST_REPORT_VALUES:
+        if f"{name}_p10" in values:
+            out[name] = {f"p{q}": _f(values[f"{name}_p{q}"][0]) for q in robust.PERCENTILES}
+            if sail is not None:
+                out[name]["nominal"] = _f(sail[name][0])
+    return out
+
+
+def robust_rows(report, currency="") -> list[list[str]]:
+    """The `robust` block as table rows for a person: quantity, nominal, p10, p50, p90."""
+    from .front_data import column_label, format_value  # (front_data reads the evaluator's names)
+    rows = []
+    for name in ROBUST_REPORT_VALUES:
+        entry = report["robust"].get(name)
+        if entry is not None:
+            rows.append([column_label(name, currency)] + [
+                format_value(name, entry.get(k, float("nan")), currency) for k in ("nominal", "p10", "p50", "p90")])
+    return rows
+
+
+ROBUST_HEADERS = ("quantity", "as drawn", "p10 build", "p50 build", "p90 build")
+
+
+def robust_note(report) -> str:
+    """One line saying what the band is."""
+    b = report["robust"]
+    sp = b["spreads"]
+    return (f"{b['samples']} sampled builds, each within +-{sp['remanence_pct']:g} % magnet Br, "
+            f"+-{sp['fill_factor_pct']:g} % coil fill factor, +-{sp['running_clearance_mm']:g} mm "
+            f"running clearance, +-{sp['bilge_air_C']:g} K bilge air and +-{sp['resin_conductivity_pct']:g} % "
+            "resin conductivity (uniform, fixed samples): one build in ten comes out below its p10, one "
+            "in ten above its p90.")
+
+
+def robust_warnings(report) -> list[str]:
+    """A warning when one build in ten would exceed a limit at the hottest connected speed."""
+    band, limits = report["robust"], report["limits"]
+    out = []
+    for key, limit, what in (("coil_temperature_connected_C", limits["coil_C"], "coils"),
+                             ("magnet_temperature_connected_C", limits["magnet_C"], "magnets")):
+        p90 = band[key]["p90"]
+        if np.isfinite(p90) and p90 > limit and (report["feasible"] or not band["robust_constraints"]):
+            out.append(f"with the build spread, one build in ten has its {what} above "
+                       f"{p90:.0f} {DEG_C} at the hottest connected speed (p90 of {band['samples']} "
+                       f"sampled builds; limit {limit:.0f} {DEG_C}): measure a test coil, or choose a "
+                       "design with margin (robust_constraints = true keeps the search to those)")
+    sailing = report["inputs"]["sailing_rpm"]
+    cut_in = band["cut_in_rpm"]["p90"]
+    if "fastest_sailing_rpm" in report["inputs"] and report["feasible"] and cut_in > sailing:
+        out.append(f"with the build spread, one build in ten only starts charging at {cut_in:.0f} rpm "
+                   f"(p90), above the {sailing:.0f} rpm sailing speed")
+    return out
 
 
 def problems_with_numbers(ev, scenario, i=0):

@@ -44,6 +44,8 @@ _LABELS = {
     "wire_cost": "wire cost", "disc_cost": "disc cost", "magnet_temperature_C": "magnet temperature",
     "back_iron_flux_density_T": "back-iron flux density", "axial_attraction_N": "rotor attraction",
     "open_circuit_line_peak_V": "open-circuit line voltage (peak)",
+    "coil_temperature_connected_C": "coil temperature, hottest connected speed",
+    "magnet_temperature_connected_C": "magnet temperature, hottest connected speed",
 }
 # name ending -> (unit shown, factor from the stored SI value); longest ending first
 _UNITS = (("_per_rpm_V", "mV/rpm", 1e3), ("_per_day", "A h/day", 1.0), ("_Nm", "N m", 1.0),
@@ -54,7 +56,16 @@ _BETTER_HIGH = ("charge", "amp_hours", "efficiency", "battery_power", "emf")
 _BETTER_LOW = ("torque", "drag", "cost", "temperature", "cut_in", "mass", "attraction", "loss")
 
 
+def _percentile_split(name):
+    """('charge_current_A', 'p10') for a build-spread column (robust.py), (name, '') otherwise."""
+    for q in ("_p10", "_p50", "_p90"):
+        if name.endswith(q):
+            return name[: -len(q)], q[1:]
+    return name, ""
+
+
 def _unit_entry(name):
+    name = _percentile_split(name)[0]
     for ending, unit, factor in _UNITS:
         if name.endswith(ending):
             return ending, unit, factor
@@ -63,6 +74,7 @@ def _unit_entry(name):
 
 def column_unit(name: str, currency: str = "") -> str:
     """Unit a person reads for a front.csv column (lengths in mm, the scenario's currency for costs)."""
+    name = _percentile_split(name)[0]
     if name.endswith("cost"):
         return currency
     if name == "efficiency":
@@ -72,6 +84,7 @@ def column_unit(name: str, currency: str = "") -> str:
 
 def column_factor(name: str) -> float:
     """Factor from the stored SI value to the unit of `column_unit`."""
+    name = _percentile_split(name)[0]
     if name == "efficiency":
         return 100.0
     return 1.0 if name.endswith("cost") else _unit_entry(name)[2]
@@ -87,10 +100,12 @@ def column_label(name: str, currency: str = "") -> str:
     base = name
     for prefix in ("best_",):
         base = base[len(prefix):] if base.startswith(prefix) else base
+    base, q = _percentile_split(base)
     label = _LABELS.get(base)
     if label is None:
         ending = _unit_entry(base)[0]
         label = (base[: -len(ending)] if ending else base).replace("_", " ").strip()
+    label += f" ({q} build)" if q else ""
     unit = column_unit(base, currency)
     return f"{label} [{unit}]" if unit else label
 

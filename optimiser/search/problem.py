@@ -41,10 +41,22 @@ def evaluate_designs(evaluator, matrix):
     return ev.objectives * evaluator.objective_sign, ev.constraints, V
 
 
+ROBUST_FRONT_VALUES = ("charge_current_A_p10", "drag_torque_Nm_p90", "coil_temperature_C_p90",
+                       "coil_temperature_connected_C_p90", "amp_hours_per_day_p10",
+                       "mean_added_drag_N_p90")
+"""The build-spread values (robust.py) written to front.csv when the scenario's robust_samples > 0
+(the profile ones only with a propeller)."""
+
+
 def front_values(evaluator):
-    """FRONT_VALUES, plus the default objectives a scenario's own objectives leave out."""
+    """FRONT_VALUES, plus the default objectives a scenario's own objectives leave out, plus the
+    build-spread values when the scenario samples builds."""
     extra = [name for name in OBJECTIVES if name not in evaluator.objectives]
-    return (*extra, *FRONT_VALUES)
+    sc = evaluator.scenario
+    robust = [name for name in ROBUST_FRONT_VALUES if sc.robust_samples > 0
+              and name not in evaluator.objectives
+              and (sc.has_propeller or not name.startswith(("amp_hours", "mean_added")))]
+    return (*extra, *FRONT_VALUES, *robust)
 
 
 RING_COLUMN = 3

@@ -339,6 +339,7 @@ class SearchRun:
             "coil_temperature_C": (self.scenario.bilge_air_C,
                                    float((ev.wire["thermal_class_C"] - self.scenario.temperature_margin_K).max())),
         }
+        known["coil_temperature_C_p90"] = known["coil_temperature_C"]
         ideal, ref = [], []
         for j, name in enumerate(ev.objectives):
             if name in known:
