@@ -179,7 +179,7 @@ def robust_block(evaluator: Evaluator, design: DesignBatch, sail=None) -> dict:
     nominal build only)."""
     sc = evaluator.scenario
     n = sc.robust_samples if sc.robust_samples > 0 else robust.REPORT_SAMPLES
-    if sc.robust_samples > 0 and sail is not None:
+    if sail is not None and "charge_current_A_p10" in sail.values:  # the evaluation sampled them
         values = sail.values
     else:
         values = robust.robust_values(evaluator, design, n)

@@ -27,6 +27,7 @@ from pathlib import Path
 import numpy as np
 import plotly.offline
 
+from .. import robust
 from ..evaluate import Evaluation
 from ..report.evaluation import design_report
 from ..safe_io import RunLock, write_atomic
@@ -84,6 +85,8 @@ def front_reports(evaluator, batch):
     if len(batch) == 0:
         return [], None
     sail = evaluator.evaluate(batch)
+    if evaluator.scenario.robust_samples == 0:  # the build band of every design, in one batch
+        sail.values.update(robust.robust_values(evaluator, batch, robust.REPORT_SAMPLES))
     motor = evaluator.evaluate(batch, rpm=evaluator.scenario.max_rpm)
     reports = [design_report(_OneRow(evaluator, sail, motor, i), batch.take([i]))
                for i in range(len(batch))]
