@@ -97,6 +97,7 @@ class DiesOnce:
     def __init__(self, evaluator, flag):
         self.evaluator, self.flag = evaluator, str(flag)
         self.objectives, self.objective_sign = evaluator.objectives, evaluator.objective_sign
+        self.scenario = evaluator.scenario  # front_values reads robust_samples
 
     def evaluate(self, batch, rpm=None):
         try:
