@@ -283,6 +283,10 @@ class Evaluator:
         ev.objectives = np.column_stack([ev.values.get(name, missing) for name in self.objectives])
         return ev
 
+    def coil(self, batch: DesignBatch) -> geometry.CoilGeometry:
+        """The coils of `batch` as they would be built (shape, former, legs, thickness): for reports."""
+        return self._geometry(batch).built
+
     def _connected_limits(self, ev):
         """Temperature limits over the whole connected range: the coil and magnet constraints hold
         at the hotter of the sailing point (with a propeller: the hottest profile speed) and the

@@ -17,6 +17,7 @@ from pathlib import Path
 
 from .errors import InputError, Problem, did_you_mean
 from .operating import fit_shaft_line_friction
+from .design import COIL_SHAPES
 from .physics.propeller import propeller_turbine
 
 __all__ = ["Scenario", "load_scenario", "write_template", "render_template", "FIELDS",
@@ -120,6 +121,9 @@ FIELDS: tuple[Field, ...] = (
     Field("objectives", tuple, OBJECTIVE_NAMES[:4], None, None, "what the search trades off; "
           "also amp_hours_per_day and mean_added_drag_N when a propeller is given", "search",
           item=str, choices=OBJECTIVE_NAMES),
+    Field("coil_shapes", tuple, COIL_SHAPES, None, None, "coil shapes the search tries: "
+          "rectangular, or keystone (a former whose long sides run parallel to the lines between "
+          "neighbouring coils, so the legs fill the ring)", "search", item=str, choices=COIL_SHAPES),
     Field("spread_remanence_pct", float, 1.5, 0, 20, "magnet Br within +-1.5 % of its "
           "grade's typical value: sintered NdFeB grade tables give a Br window of about that "
           "width (e.g. N42 1.28-1.32 T; common practice, from memory)", "tolerances"),
@@ -242,6 +246,7 @@ class Scenario:
     profile_hours_per_day: tuple
     source: str = "built-in demo"
     shaft_line_friction_fitted: bool = False  # True: shaft_line_friction_Nm fitted to the measurement
+    coil_shapes: tuple = COIL_SHAPES  # (after the defaults: a scenario pickled before it has both)
 
     @property
     def has_propeller(self) -> bool:

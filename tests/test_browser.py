@@ -161,9 +161,10 @@ def test_profile_objectives_on_the_axes(browser, tmp_path):
     from test_front_page import CATALOGS
 
     scenario = tmp_path / "boat.toml"
+    # rectangular coils only: the seed was chosen for a feasible front in that space
     scenario.write_text('propeller_diameter_mm = 406\n'
                         'objectives = ["amp_hours_per_day", "mean_added_drag_N", "magnet_cost", '
-                        '"coil_temperature_C"]\n')
+                        '"coil_temperature_C"]\ncoil_shapes = ["rectangular"]\n')
     run = SearchRun(create_run(tmp_path / "run", scenario, CATALOGS, seed=1, population=30,
                                budget=Budget(evaluations=300)))
     assert run_search(run) == "finished"

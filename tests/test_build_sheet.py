@@ -260,3 +260,17 @@ def test_evaluate_a_front_design_of_the_run_as_strict_json(run, strict_json):
     assert report["feasible"] is True
     assert math.isclose(report["at_sailing"]["charge_current_A"], float(row["charge_current_A"]),
                         rel_tol=1e-5)  # (front.csv holds 6 significant digits)
+
+
+def test_front_csv_and_sheets_name_the_coil_shape_and_draw_its_outline(picked, run):
+    # Both shapes are searched by default: front.csv says which each design is, the coil table
+    # gives the former, and a keystone coil is drawn as wound (a polygon path, not a rectangle).
+    rows = _front(run.dir)
+    assert {r["coil_shape"] for r in rows} <= {"rectangular", "keystone"}
+    svg = "{http://www.w3.org/2000/svg}"
+    for design_id, (row, sheet, md, _) in picked.items():
+        cells = {r[0]: r[1] for r in sheet.tables["coil"]["body"]}
+        assert cells["coil shape and former"].startswith(row["coil_shape"] + ": former ")
+        stator = ET.parse(run.dir / f"build-{design_id}-stator.svg").getroot()
+        paths = [p.get("d") for p in stator.iter(svg + "path")]
+        assert paths and all(("L" in d) == (row["coil_shape"] == "keystone") for d in paths), paths[:1]

@@ -33,7 +33,9 @@ def demo():
 
 @pytest.fixture(scope="module")
 def batch(demo):
-    return SearchSpace(demo[1]).sample(400, np.random.default_rng(17))
+    """400 random rectangular designs (the first ten columns of a sample of the space)."""
+    sample = SearchSpace(demo[1]).sample(400, np.random.default_rng(17))
+    return DesignBatch.from_matrix(sample.as_matrix()[:, :10])
 
 
 def test_shape_names_match_the_geometry():
@@ -141,3 +143,58 @@ def test_keystone_wire_copper_and_eddy_loss_use_the_keystone_lengths(demo, batch
     fem = evaluator._field_and_emf(key, geo)
     rect_length = geo.coils * 2.0 * key.turns * key.strands * geo.mag["length_m"] * np.pi * d ** 2 / 4
     assert np.allclose(fem.active_copper_m3 / rect_length, 1 / np.cos(np.pi / geo.coils), rtol=1e-12)
+
+
+def _scenario(tmp_path, text):
+    path = tmp_path / "boat.toml"
+    path.write_text(text, encoding="utf-8")
+    return load_scenario(path)
+
+
+def test_space_searches_both_shapes_by_default_and_the_scenario_restricts_it(demo, tmp_path):
+    from optimiser.search.space import VARIABLES
+
+    catalogs, evaluator = demo
+    both = SearchSpace(evaluator)
+    assert both.variables["coil_shape"].options == [0, 1]
+    rect = SearchSpace(Evaluator(catalogs, _scenario(tmp_path, 'coil_shapes = ["rectangular"]\n')))
+    assert tuple(rect.variables) == VARIABLES  # exactly the space before shapes existed
+    key = SearchSpace(Evaluator(catalogs, _scenario(tmp_path, 'coil_shapes = ["keystone"]\n')))
+    rng = np.random.default_rng(1)
+    assert set(both.sample(500, rng).coil_shape) == {0, 1}
+    assert set(rect.sample(50, rng).coil_shape) == {0} and set(key.sample(50, rng).coil_shape) == {1}
+    # genotypes round-trip with the shape; the exact enumeration doubles
+    m = both.sample(200, rng).as_matrix()
+    assert np.array_equal(both.decode(np.array(both.genotypes(m), dtype=object)).as_matrix(), m)
+    # a space pickled by a run made before the shape existed decodes to rectangular coils
+    old = SearchSpace(Evaluator(catalogs, _scenario(tmp_path, 'coil_shapes = ["rectangular"]\n')))
+    del old.fixed_coil_shape
+    assert set(old.decode(np.array(old.genotypes(m[:, :10]), dtype=object)).coil_shape) == {0}
+
+
+def test_bad_coil_shapes_key_is_refused_with_its_line(tmp_path):
+    from optimiser.errors import InputError
+
+    for text, says in (('coil_shapes = ["round"]\n', "unknown 'round'"), ("coil_shapes = []\n", "non-empty list"),
+                       ('coil_shapes = ["keystone", "keystone"]\n', "twice")):
+        with pytest.raises(InputError) as info:
+            _scenario(tmp_path, text)
+        (p,) = info.value.problems
+        assert p.column == "coil_shapes" and p.row == 1 and says in p.message, p
+
+
+def test_evaluate_json_gives_the_shape_and_the_former(runner, demo, batch, tmp_path):
+    import json
+
+    catalogs, _ = demo
+    path = tmp_path / "key.toml"
+    path.write_text(design_toml(batch.take([3]).records(catalogs)[0] | {"coil_shape": "keystone"}), encoding="utf-8")
+    res = runner.invoke(app, ["evaluate", "--catalogs", str(CATALOGS), "--design", str(path), "--json"])
+    assert res.exit_code in (0, 1), res.output
+    g = json.loads(res.output)["geometry"]
+    assert g["coil_shape"] == "keystone"
+    coils = json.loads(res.output)["winding"]["coils"]
+    assert g["former_side_angle_deg"] == pytest.approx(180 / coils)
+    assert g["former_outer_width_m"] == pytest.approx(
+        g["former_inner_width_m"] + 2 * g["former_length_m"] * np.tan(np.pi / coils), rel=1e-12)
+    assert g["former_length_m"] == g["coil_hole_radial_m"]

@@ -32,7 +32,8 @@ def catalogs():
 @pytest.fixture(scope="module")
 def demo(catalogs):
     evaluator = Evaluator(catalogs, load_scenario(None))
-    space = SearchSpace(evaluator)
+    # rectangular coils only (the sample these checks were written on; shapes are tested elsewhere)
+    space = SearchSpace(Evaluator(catalogs, dataclasses.replace(load_scenario(None), coil_shapes=("rectangular",))))
     batch = space.decode_columns(space.random_columns(6000, np.random.default_rng(14)))
     fits = evaluator.evaluate(batch, rpm=180.0).constraints[:, :6].max(axis=1) <= 0
     batch = batch.take(np.flatnonzero(fits)[:300])

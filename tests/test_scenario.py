@@ -37,7 +37,7 @@ def test_scenario_has_the_spec_attributes():
     names = {f.name for f in dataclasses.fields(Scenario)}
     assert set(SPEC_ATTRIBUTES) <= names
     # added beside the original interface by the propeller issue
-    assert names - set(SPEC_ATTRIBUTES) == {"source", "fastest_sailing_rpm", "fastest_boat_speed_kn", "objectives", "propeller_diameter_m",
+    assert names - set(SPEC_ATTRIBUTES) == {"source", "fastest_sailing_rpm", "fastest_boat_speed_kn", "objectives", "coil_shapes", "propeller_diameter_m",
                                             "propeller_pitch_m", "propeller_blades",
                                             "propeller_area_ratio", "wake_fraction",
                                             "shaft_line_friction_Nm", "water_density_kg_m3",

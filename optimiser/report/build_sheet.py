@@ -19,7 +19,7 @@ import numpy as np
 from ..design import design_toml
 from ..evaluate import RUNAWAY_C, STATOR_RIM_M, Evaluator, Settings
 from ..physics.winding import winding_table
-from ..report.evaluation import ROBUST_HEADERS, design_report, robust_note, robust_rows, rpm_table
+from ..report.evaluation import ROBUST_HEADERS, design_report, former_text, robust_note, robust_rows, rpm_table
 from ..safe_io import RunLock, write_atomic
 from . import drawing
 from .front_data import (ALIASES, DEG_C, column_factor, column_label, column_name, column_sense, format_value, load_front,
@@ -328,10 +328,13 @@ def build_sheet(run, design_id, choice: Choice | None = None) -> Sheet:
     stator = drawing.stator_svg(g["coil_inner_radius_m"], g["coil_outer_radius_m"], STATOR_RIM_M,
                                 sc.shaft_diameter_m / 2, g["ring_radius_m"], g["coil_hole_radial_m"],
                                 g["coil_hole_tangential_m"], g["coil_leg_width_m"], letters,
-                                list(winding.coil_polarity))
+                                list(winding.coil_polarity), hole_outer_tangential_m=g["former_outer_width_m"])
     coil = Table(["Quantity", "Value"], [
         ["coils", f"{w['coils']} (layout {d['layout']} x{d['multiple']})"],
-        ["hole (radial x tangential)", f"{g['coil_hole_radial_m'] * 1e3:.1f} x {g['coil_hole_tangential_m'] * 1e3:.1f} mm"],
+        ["coil shape and former", former_text(g)],
+        ["hole (radial x tangential)", f"{g['coil_hole_radial_m'] * 1e3:.1f} x {g['coil_hole_tangential_m'] * 1e3:.1f} mm"
+                                       + (f" (inner end; {g['former_outer_width_m'] * 1e3:.1f} mm at the outer end)"
+                                          if g["coil_shape"] == "keystone" else "")],
         ["leg width", _mm(g["coil_leg_width_m"])],
         ["coil thickness (axial)", _mm(g["coil_thickness_m"], 2)],
         ["turns per coil", str(d["turns"])],

@@ -11,6 +11,8 @@ from __future__ import annotations
 import math
 from html import escape
 
+from ..physics.geometry import hole_corners, turn_path
+
 __all__ = ["print_scale", "rotor_svg", "stator_svg", "performance_svg", "nice_ticks", "PALETTE"]
 
 PALETTE = {"navy": "#1d3557", "teal": "#2a7f84", "sand": "#e9d8a6", "sand_dark": "#c9a66b",
@@ -113,7 +115,7 @@ def rotor_svg(disc_radius_m, bore_radius_m, ring_radius_m, magnet_length_m, magn
 
 def stator_svg(coil_inner_radius_m, coil_outer_radius_m, rim_m, bore_radius_m, ring_radius_m,
                hole_radial_m, hole_tangential_m, leg_width_m, coil_phase_letters, coil_polarity,
-               title="Stator, seen from the rotor") -> str:
+               title="Stator, seen from the rotor", hole_outer_tangential_m=None) -> str:
     """The stator's Q coils, to scale, each labelled with its number, phase and polarity.
 
     Parameters
@@ -132,6 +134,9 @@ def stator_svg(coil_inner_radius_m, coil_outer_radius_m, rim_m, bore_radius_m, r
         "A", "B" or "C" for each coil (coil k at 360 k / Q degrees).
     coil_polarity : sequence of int
         +1 forward, -1 reversed, for each coil.
+    hole_outer_tangential_m : float, optional
+        Width of the hole at its outer end: wider than `hole_tangential_m` for a keystone coil,
+        drawn as wound (the trapezoidal former grown by the leg width, corners rounded) [m].
 
     Returns
     -------
@@ -153,23 +158,34 @@ def stator_svg(coil_inner_radius_m, coil_outer_radius_m, rim_m, bore_radius_m, r
             f'stroke-width="{stroke}" stroke-dasharray="{_f(R / 80)}"/>']
     q = len(coil_phase_letters)
     dot = max(w * 0.18, 1.0)
+    Wo = Wh if hole_outer_tangential_m is None else hole_outer_tangential_m * 1e3
+    keystone = Wo > Wh
+    if keystone:
+        corners = hole_corners(rm, Lh, Wh, Wo)
+        outline = turn_path(corners, w, 12)
+        keystone_path = ("M" + "L".join(f"{_f(x)} {_f(y)}" for x, y in outline) + "z M"
+                         + "L".join(f"{_f(x)} {_f(y)}" for x, y in corners) + "z")
     for k, (letter, pol) in enumerate(zip(coil_phase_letters, coil_polarity)):
         angle = 2.0 * math.pi * k / q
         deg = _f(-math.degrees(angle))
         colour = colours.get(letter, PALETTE["grey"])
         x0, y0 = rm - Lh / 2 - w, -Wh / 2 - w
         # Outer outline minus the hole, one path with the even-odd rule.
-        path = (f"M{_f(x0)} {_f(y0)}h{_f(Lh + 2 * w)}v{_f(Wh + 2 * w)}h{_f(-(Lh + 2 * w))}z "
-                f"M{_f(rm - Lh / 2)} {_f(-Wh / 2)}h{_f(Lh)}v{_f(Wh)}h{_f(-Lh)}z")
+        if keystone:
+            path = keystone_path
+        else:
+            path = (f"M{_f(x0)} {_f(y0)}h{_f(Lh + 2 * w)}v{_f(Wh + 2 * w)}h{_f(-(Lh + 2 * w))}z "
+                    f"M{_f(rm - Lh / 2)} {_f(-Wh / 2)}h{_f(Lh)}v{_f(Wh)}h{_f(-Lh)}z")
         lead_x = rm + Lh / 2 + w / 2
+        lead_y = (Wo if keystone else Wh) / 2 + w / 2
         body.append(
             f'<g transform="rotate({deg})">'
             f'<path d="{path}" fill="{colour}" fill-opacity="0.85" fill-rule="evenodd" '
             f'stroke="{PALETTE["ink"]}" stroke-width="{stroke}"/>'
-            f'<circle cx="{_f(lead_x)}" cy="{_f(-Wh / 2 - w / 2)}" r="{_f(dot)}" fill="white" '
+            f'<circle cx="{_f(lead_x)}" cy="{_f(-lead_y)}" r="{_f(dot)}" fill="white" '
             f'stroke="{PALETTE["ink"]}" stroke-width="{stroke}"/>'
-            f'<circle cx="{_f(lead_x)}" cy="{_f(-Wh / 2 - w / 2)}" r="{_f(dot * 0.55)}" fill="{PALETTE["ink"]}"/>'
-            f'<circle cx="{_f(lead_x)}" cy="{_f(Wh / 2 + w / 2)}" r="{_f(dot)}" fill="white" '
+            f'<circle cx="{_f(lead_x)}" cy="{_f(-lead_y)}" r="{_f(dot * 0.55)}" fill="{PALETTE["ink"]}"/>'
+            f'<circle cx="{_f(lead_x)}" cy="{_f(lead_y)}" r="{_f(dot)}" fill="white" '
             f'stroke="{PALETTE["ink"]}" stroke-width="{stroke}"/></g>')
         x, y = _polar(rm, angle)
         sign = "+" if pol > 0 else "\u2212"

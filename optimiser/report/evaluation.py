@@ -8,7 +8,7 @@ from __future__ import annotations
 import numpy as np
 
 from .. import robust
-from ..design import CONNECTIONS, DesignBatch
+from ..design import COIL_SHAPES, CONNECTIONS, DesignBatch
 from ..evaluate import CONSTRAINTS, ELV_LIMIT_AC_RMS_V, Evaluator
 from ..strict_json import finite_or_none  # noqa: F401  (kept importable from here)
 
@@ -121,7 +121,7 @@ def design_report(evaluator: Evaluator, design: DesignBatch, rows=()) -> dict:
             "ring_radius_m", "magnet_length_m", "magnet_width_m", "magnet_thickness_m", "face_gap_m",
             "stator_thickness_m", "coil_thickness_m", "coil_hole_radial_m", "coil_hole_tangential_m",
             "coil_leg_width_m", "mean_turn_length_m", "coil_inner_radius_m", "coil_outer_radius_m",
-            "axial_length_m")},
+            "axial_length_m")} | former_geometry(evaluator.coil(design)),
         "magnet": {"remanence_T": v("remanence_T"), "recoil_permeability": v("recoil_permeability"),
                    "temperature_C": v("magnet_temperature_C")},
         "winding": {
@@ -242,6 +242,25 @@ def robust_warnings(report) -> list[str]:
         out.append(f"with the build spread, one build in ten only starts charging at {cut_in:.0f} rpm "
                    f"(p90), above the {sailing:.0f} rpm sailing speed")
     return out
+
+
+def former_geometry(coil, i=0):
+    """The coil's shape and the former it is wound on (design i of a `CoilGeometry`), SI units."""
+    return {"coil_shape": COIL_SHAPES[int(coil.coil_shape[i])],
+            "former_length_m": float(coil.hole_radial_m[i]),
+            "former_inner_width_m": float(coil.hole_tangential_m[i]),
+            "former_outer_width_m": float(coil.hole_outer_tangential_m[i]),
+            "former_side_angle_deg": float(np.degrees(coil.side_angle_rad[i]))}
+
+
+def former_text(g):
+    """The coil's shape and its former, from a report's geometry (`report.evaluation.former_geometry`)."""
+    if g["coil_shape"] == "keystone":
+        return (f"keystone: former {g['former_length_m'] * 1e3:.1f} mm long, "
+                f"{g['former_inner_width_m'] * 1e3:.1f} to {g['former_outer_width_m'] * 1e3:.1f} mm wide "
+                f"(sides {g['former_side_angle_deg']:.1f}\N{DEGREE SIGN} to the centre line)")
+    return (f"rectangular: former {g['former_length_m'] * 1e3:.1f} x "
+            f"{g['former_inner_width_m'] * 1e3:.1f} mm (radial x tangential)")
 
 
 def problems_with_numbers(ev, scenario, i=0):

@@ -29,7 +29,7 @@ import plotly.offline
 
 from .. import robust
 from ..evaluate import Evaluation
-from ..report.evaluation import design_report
+from ..report.evaluation import design_report, former_text
 from ..safe_io import RunLock, write_atomic
 from .drawing import PALETTE
 from .front_data import DEG_C, column_label, format_value, load_front, plural, representatives, temperature_text
@@ -64,6 +64,7 @@ class _OneRow:
         self.scenario, self.catalogs = evaluator.scenario, evaluator.catalogs
         self.windings, self.settings = evaluator.windings, evaluator.settings
         self._sail, self._motor, self._i = sail, motor, i
+        self.coil = evaluator.coil  # geometry only: cheap for one design
 
     def evaluate(self, design, rpm=None):
         source = self._sail if rpm is None else self._motor
@@ -115,8 +116,7 @@ def _panel(rep, design_id, currency, objective_rows, count, values):
         ]],
         ["Coil", [
             ["ring radius", f"{d['ring_radius_mm']:g} mm"],
-            ["hole (radial x tangential)", f"{g['coil_hole_radial_m'] * 1e3:.1f} x "
-                                           f"{g['coil_hole_tangential_m'] * 1e3:.1f} mm"],
+            ["shape", former_text(g)],
             ["leg width", mm(g["coil_leg_width_m"])],
             ["coil thickness", f"{g['coil_thickness_m'] * 1e3:.2f} mm"],
             ["turns x strands in hand", f"{d['turns']} x {d['strands']}"],
@@ -160,6 +160,7 @@ DEFAULT_SHOW = 300
 
 def _design_label(rec, coils, poles):
     return (f"{rec['magnet']}, {coils} {plural(coils, 'coil')} / {poles} poles, ring {rec['ring_radius_mm']:g} mm, "
+            f"{rec['coil_shape']} coils, "
             f"{rec['turns']} turns x {rec['strands']} of {rec['wire']}, "
             f"{rec['parallel_paths']} {plural(rec['parallel_paths'], 'path')}, {rec['connection']}")
 
@@ -203,6 +204,7 @@ def page_data(front, run_dir=None, show=DEFAULT_SHOW, reports=None) -> dict:
         {"label": "poles", "values": [int(x) for x in poles[shown]]},
         {"label": "coils", "values": [int(x) for x in coils[shown]]},
         {"label": "wire diameter [mm]", "values": [_g(wires[k] * 1e3, 4) for k in sub.wire]},
+        {"label": "coil shape (0 rectangular, 1 keystone)", "values": [int(x) for x in sub.coil_shape]},
     ] if n else []
     return {
         "ids": shown_ids,

@@ -13,11 +13,11 @@ from dataclasses import fields
 import numpy as np
 from pymoo.core.variable import Choice, Integer
 
-from ..design import DesignBatch
+from ..design import COIL_SHAPES, DesignBatch
 
 VARIABLES = ("magnet", "layout", "multiple", "ring", "disc", "wire", "strands", "turns", "paths",
              "connection")
-"""Variables of every space; `coil_shape` joins them where the scenario allows more than one shape."""
+"""Variables of every space; "coil_shape" joins them where the scenario allows more than one shape."""
 
 
 class SearchSpace:
@@ -47,6 +47,13 @@ class SearchSpace:
             "paths": Integer(bounds=(1, self.max_paths)),
             "connection": Choice(options=[0, 1]),
         }
+        # The coil shape is a variable only where the scenario allows more than one (a space with
+        # one shape is the space without the variable, so a rectangular-only search is exactly
+        # the search before shapes existed; a space unpickled from such a run decodes to 0).
+        shapes = [COIL_SHAPES.index(name) for name in getattr(sc, "coil_shapes", COIL_SHAPES)]
+        self.fixed_coil_shape = shapes[0]
+        if len(shapes) > 1:
+            self.variables["coil_shape"] = Choice(options=shapes)
         # Nearest allowed multiple for every (layout, raw multiple), and the largest allowed number of
         # parallel paths not above the raw value for every winding: lookup tables, no per-design loop.
         self._multiple_lut = np.zeros((len(cat.layouts), self.max_multiple + 1), int)
@@ -87,7 +94,7 @@ class SearchSpace:
                            ring_radius_m=self.ring_min + self.ring_step * cols["ring"],
                            disc=cols["disc"], wire=cols["wire"], strands=cols["strands"],
                            turns=cols["turns"], parallel_paths=paths, connection=cols["connection"],
-                           coil_shape=cols.get("coil_shape", 0))
+                           coil_shape=cols.get("coil_shape", getattr(self, "fixed_coil_shape", 0)))
 
     def genotypes(self, matrix) -> list[dict]:
         """pymoo genotypes (dicts of VARIABLES) of designs given as DesignBatch matrix rows.
@@ -99,9 +106,10 @@ class SearchSpace:
         cols = {"magnet": d.magnet, "layout": d.layout, "multiple": d.multiple,
                 "ring": np.rint((d.ring_radius_m - self.ring_min) / self.ring_step), "disc": d.disc,
                 "wire": d.wire, "strands": d.strands, "turns": d.turns, "paths": d.parallel_paths,
-                "connection": d.connection}
-        cols = {name: np.asarray(c).astype(np.int64).tolist() for name, c in cols.items()}
-        return [dict(zip(VARIABLES, values)) for values in zip(*(cols[name] for name in VARIABLES))]
+                "connection": d.connection, "coil_shape": d.coil_shape}
+        names = list(self.variables)
+        cols = {name: np.asarray(cols[name]).astype(np.int64).tolist() for name in names}
+        return [dict(zip(names, values)) for values in zip(*(cols[name] for name in names))]
 
     def enumerate(self) -> DesignBatch:
         """Every distinct design of the space (for benchmarks on small catalogs: it grows fast)."""
@@ -110,11 +118,13 @@ class SearchSpace:
         lists = [range(len(self.variables["magnet"].options)), range(len(windings)), range(self.n_ring),
                  self.variables["disc"].options, self.variables["wire"].options,
                  range(self.variables["strands"].bounds[0], self.variables["strands"].bounds[1] + 1),
-                 range(self.variables["turns"].bounds[0], self.variables["turns"].bounds[1] + 1), (0, 1)]
+                 range(self.variables["turns"].bounds[0], self.variables["turns"].bounds[1] + 1), (0, 1),
+                 self.variables["coil_shape"].options if "coil_shape" in self.variables
+                 else [getattr(self, "fixed_coil_shape", 0)]]
         grids = np.meshgrid(*[np.asarray(list(v)) for v in lists], indexing="ij")
         flat = [g.ravel() for g in grids]
         w = np.array(windings)[flat[1]]
         return DesignBatch(magnet=flat[0], layout=w[:, 0], multiple=w[:, 1],
                            ring_radius_m=self.ring_min + self.ring_step * flat[2], disc=flat[3],
                            wire=flat[4], strands=flat[5], turns=flat[6], parallel_paths=w[:, 2],
-                           connection=flat[7])
+                           connection=flat[7], coil_shape=flat[8])
